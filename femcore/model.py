@@ -1,0 +1,163 @@
+"""A finite element model: mesh, analysis type, DOFs, material blocks and the global pattern.
+
+The model evaluates internal forces and the tangent for a full displacement vector and a
+list of committed material states. It never commits state itself: it returns trial states,
+and the driver (linear solve, Newton, pushover) decides.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse as sp
+from numpy.typing import NDArray
+
+from materials.base import MaterialModel, State
+
+from .assembly import (
+    SparsePattern,
+    assemble_vector,
+    element_internal_force,
+    element_stiffness,
+    element_strain,
+)
+from .dofs import ConstraintMap, Constraints, DofMap
+from .kinematics import Analysis, CellGeometry, cell_geometry
+from .linsolve import solve
+from .loads import body_force
+from .mesh import Mesh
+
+__all__ = ["SolidBlock", "Model", "LinearSolution"]
+
+
+@dataclass(eq=False)
+class SolidBlock:
+    """Cells sharing one material.
+
+    Attributes
+    ----------
+    name : str
+    cells : (c,) cell indices into the mesh
+    material : MaterialModel
+    geom : CellGeometry of those cells
+    element_dofs : (c, 2 * n_en)
+    unit_weight : kN/m^3 used by :meth:`Model.gravity`
+    """
+
+    name: str
+    cells: NDArray[np.int64]
+    material: MaterialModel
+    geom: CellGeometry
+    element_dofs: NDArray[np.int64]
+    unit_weight: float = 0.0
+
+
+@dataclass
+class LinearSolution:
+    """Result of a linear solve: full displacements, stresses per block, reactions."""
+
+    u: NDArray[np.float64]  # (n_dofs,)
+    stress: list[NDArray[np.float64]]  # per block (c, q, 4)
+    reactions: NDArray[np.float64]  # (n_dofs,) internal minus external force
+    states: list[State] = field(default_factory=list)
+
+
+class Model:
+    """Mesh + analysis + DOFs + blocks; builds the global CSR pattern once."""
+
+    def __init__(self, mesh: Mesh, analysis: Analysis = Analysis.PLANE_STRAIN) -> None:
+        self.mesh = mesh
+        self.analysis = Analysis(analysis)
+        self.dofmap = DofMap(mesh.n_nodes)
+        self.blocks: list[SolidBlock] = []
+        self._pattern: SparsePattern | None = None
+
+    # ---------------------------------------------------------------- building
+    def add_block(
+        self, name: str, cells: NDArray[np.int64] | str | None, material: MaterialModel,
+        unit_weight: float = 0.0,
+    ) -> SolidBlock:
+        """Add the cells of a named cell set (or index array, or all) with a material."""
+        if cells is None:
+            cells = np.arange(self.mesh.n_cells)
+        elif isinstance(cells, str):
+            cells = self.mesh.cell_sets[cells]
+        cells = np.asarray(cells, dtype=np.int64)
+        geom = cell_geometry(self.mesh, self.analysis, cells=cells)
+        block = SolidBlock(name, cells, material, geom,
+                           self.dofmap.cell_dofs(self.mesh.cells[cells]), unit_weight)
+        self.blocks.append(block)
+        self._pattern = None
+        return block
+
+    def add_reference_point(self, name: str, xy: tuple[float, float]) -> int:
+        self._pattern = None
+        return self.dofmap.add_reference_point(name, xy)
+
+    def constraints(self) -> Constraints:
+        return Constraints(self.dofmap, self.mesh.points)
+
+    @property
+    def n_dofs(self) -> int:
+        return self.dofmap.n_dofs
+
+    @property
+    def pattern(self) -> SparsePattern:
+        if self._pattern is None:
+            blocks = [b.element_dofs for b in self.blocks]
+            # reference points get a diagonal entry so every DOF appears in the pattern
+            extra = np.arange(2 * self.mesh.n_nodes, self.n_dofs)[:, None]
+            self._pattern = SparsePattern(self.n_dofs, [*blocks, extra])
+        return self._pattern
+
+    # ---------------------------------------------------------------- evaluation
+    def initial_states(self) -> list[State]:
+        return [b.material.initial_state(b.geom.x) for b in self.blocks]
+
+    def gravity(self) -> NDArray[np.float64]:
+        """Global self-weight force of all blocks (unit weights downward)."""
+        f = np.zeros(self.n_dofs)
+        for b in self.blocks:
+            if b.unit_weight:
+                f += body_force(self.dofmap, self.mesh.cells[b.cells], b.geom,
+                                np.array([0.0, -b.unit_weight]))
+        return f
+
+    def evaluate(
+        self, u: NDArray[np.float64], states: list[State], tangent: bool = True
+    ) -> tuple[NDArray[np.float64], sp.csr_matrix | None, list[State]]:
+        """Internal force, tangent (CSR, shared pattern) and trial states at displacement ``u``."""
+        f_int = np.zeros(self.n_dofs)
+        k_blocks = []
+        trial = []
+        for b, st in zip(self.blocks, states, strict=True):
+            strain = element_strain(b.geom, u[b.element_dofs])  # (c, q, 4)
+            stress, D, new_state = b.material.update(strain, st)
+            f_int += assemble_vector(self.n_dofs, b.element_dofs,
+                                     element_internal_force(b.geom, stress))
+            if tangent:
+                k_blocks.append(element_stiffness(b.geom, D))
+            trial.append(new_state)
+        K = None
+        if tangent:
+            n_extra = self.n_dofs - 2 * self.mesh.n_nodes
+            K = self.pattern.assemble([*k_blocks, np.zeros(n_extra)])
+        return f_int, K, trial
+
+    def solve_linear(
+        self, cmap: ConstraintMap, f_ext: NDArray[np.float64], states: list[State] | None = None,
+        backend: str = "superlu",
+    ) -> LinearSolution:
+        """One linear step from ``states`` (default: stress-free) under ``f_ext``.
+
+        Exact for linear materials; for others it is the first tangent predictor.
+        """
+        states = states if states is not None else self.initial_states()
+        u0 = np.zeros(self.n_dofs)
+        f0, K, _ = self.evaluate(u0, states)
+        r = K @ cmap.g + f0 - f_ext  # residual at u = g
+        du = solve(cmap.reduce_matrix(K), -cmap.reduce_vector(r), backend)
+        u = cmap.expand(du)
+        f_int, _, trial = self.evaluate(u, states, tangent=False)
+        return LinearSolution(u, [s.stress for s in trial], f_int - f_ext, trial)

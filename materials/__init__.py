@@ -1,0 +1,6 @@
+"""Constitutive models, numpy only, vectorized over (cells, points)."""
+
+from .base import MaterialModel, MaterialParameterError, State
+from .elastic import LinearElastic, elastic_matrix
+
+__all__ = ["MaterialModel", "MaterialParameterError", "State", "LinearElastic", "elastic_matrix"]
