@@ -49,7 +49,7 @@ def edge_geometry(mesh: Mesh, edges: NDArray[np.int64], analysis: Analysis):
     jac = np.linalg.norm(t, axis=-1)  # (e, q)
     normal = np.stack([t[..., 1], -t[..., 0]], axis=-1) / jac[..., None]  # (e, q, 2)
     # orient outward: away from the centroid of the cell that owns the edge
-    centroid = mesh.points[_owner_cells(mesh, edges)][:, :3].mean(axis=1)  # (e, 2)
+    centroid = mesh.points[mesh.cells[_owner_cells(mesh, edges), :3]].mean(axis=1)  # (e, 2)
     mid = X[:, :2].mean(axis=1)  # (e, 2)
     sign = np.sign(np.einsum("ed,ed->e", normal[:, 0], mid - centroid))
     normal = normal * sign[:, None, None]

@@ -111,7 +111,7 @@ def annulus_sector(a: float, b: float, h: float, element: str = "T6",
 def _name_box_edges(x0, x1, y0, y1, names: dict[str, str],
                     footing: tuple[float, float] | None = None, top_y: float | None = None):
     """Physical groups for curves on the sides of the box (and the footing part of the top)."""
-    tol = 1e-7 * max(x1 - x0, y1 - y0)
+    tol = 1e-6 * max(x1 - x0, y1 - y0, 1.0)  # OCC bounding boxes are padded by ~1e-7
     top_y = y1 if top_y is None else top_y
     groups: dict[str, list[int]] = {}
     for _, ctag in gmsh.model.getEntities(1):
