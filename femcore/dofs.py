@@ -214,8 +214,8 @@ class ConstraintMap:
         m = self.master_index[full_dof]
         if m < 0:
             raise ConstraintError(f"DOF {full_dof} is a slave; ask for its reference point")
-        col = self.T_tie[:, m]
-        return float(col.T @ r_full)
+        col = self.T_tie[:, [m]].toarray()[:, 0]  # (n_full,)
+        return float(col @ r_full)
 
     def reduce_matrix(self, K: sp.csr_matrix) -> sp.csr_matrix:
         """``T^T K T`` by a cached scatter of ``K.data`` (pattern of K must not change)."""
