@@ -75,8 +75,7 @@ def element_stiffness(geom: CellGeometry, D: NDArray[np.float64]) -> NDArray[np.
     B = geom.B  # (c, q, 4, i)
     DB = np.matmul(D, B)  # (c, q, 4, i)
     n_c, n_q, n_k, n_i = B.shape
-    BW = (B * geom.dV[:, :, None, None]).reshape(n_c, n_q * n_k, n_i)  # (c, q*4, i)
-    return np.matmul(BW.transpose(0, 2, 1), DB.reshape(n_c, n_q * n_k, n_i))  # (c, i, i)
+    return np.matmul(geom.BtdV, DB.reshape(n_c, n_q * n_k, n_i))  # (c, i, i)
 
 
 def element_internal_force(geom: CellGeometry, stress: NDArray[np.float64]) -> NDArray[np.float64]:

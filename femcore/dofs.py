@@ -244,8 +244,8 @@ class ConstraintMap:
         k1, t1 = expand(rows)  # entries of T in row i of each K entry
         k2, t2 = expand(cols[k1])  # entries of T in row j
         src = k1[k2]
-        a = T.indices[t1][k2]
-        b = T.indices[t2]
+        a = T.indices[t1][k2].astype(np.int64)  # int64: a * n_free overflows int32
+        b = T.indices[t2].astype(np.int64)
         coef = T.data[t1][k2] * T.data[t2]
         n_free = self.n_free
         keys = a * n_free + b

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import enum
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from numpy.typing import NDArray
@@ -31,7 +32,7 @@ class Analysis(str, enum.Enum):
 
 
 def default_rule(element: ReferenceElement) -> QuadratureRule:
-    """Rule of degree 2p: exact stiffness for straight-sided cells (T3: 3 points, T6: 6, T15: 16)."""
+    """Degree-2p rule: exact stiffness on straight-sided cells (T3: 3 points, T6: 6, T15: 16)."""
     return triangle_rule(max(2 * element.order, 2))
 
 
@@ -60,6 +61,13 @@ class CellGeometry:
     @property
     def n_cells(self) -> int:
         return self.dV.shape[0]
+
+    @cached_property
+    def BtdV(self) -> NDArray[np.float64]:
+        """``(B dV)^T`` with (q, k) flattened, ``(c, i, q*4)``, contiguous; cached for assembly."""
+        n_c, n_q, n_k, n_i = self.B.shape
+        BW = (self.B * self.dV[:, :, None, None]).reshape(n_c, n_q * n_k, n_i)
+        return np.ascontiguousarray(BW.transpose(0, 2, 1))
 
     @property
     def n_qp(self) -> int:

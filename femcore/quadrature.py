@@ -13,7 +13,7 @@ Line rules are Gauss-Legendre (numpy.polynomial.legendre.leggauss).
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache
 
 import numpy as np
 from numpy.typing import NDArray
@@ -81,7 +81,7 @@ _TRIANGLE_ORBITS: dict[int, list[tuple]] = {
 TRIANGLE_DEGREES = tuple(sorted(_TRIANGLE_ORBITS))
 
 
-@lru_cache(maxsize=None)
+@cache
 def triangle_rule(degree: int) -> QuadratureRule:
     """The cheapest tabulated triangle rule exact to at least ``degree``."""
     for d in TRIANGLE_DEGREES:
@@ -93,7 +93,7 @@ def triangle_rule(degree: int) -> QuadratureRule:
     raise ValueError(f"no triangle rule of degree {degree}; highest is {TRIANGLE_DEGREES[-1]}")
 
 
-@lru_cache(maxsize=None)
+@cache
 def line_rule(degree: int) -> QuadratureRule:
     """Gauss-Legendre rule on [-1, 1] exact to at least ``degree``."""
     n = max(1, (degree + 2) // 2)

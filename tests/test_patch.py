@@ -4,7 +4,8 @@ Reference: a displacement field that produces constant stress in equilibrium mus
 exactly (to round-off) by a convergent element (Irons & Razzaque 1972, "Experience with the
 patch test for convergence of finite elements"; Zienkiewicz, Taylor & Zhu 2013, ch. 9).
 Plane strain: any linear field. Axisymmetric: u_r = a r, u_z = b z + e (constant stress,
-sigma_rr = sigma_thetatheta and no shear, so the 1/r equilibrium terms vanish). Tolerance 1e-10 relative.
+sigma_rr = sigma_thetatheta and no shear, so the 1/r equilibrium terms vanish).
+Tolerance 1e-10 relative.
 """
 
 import numpy as np

@@ -1,0 +1,1 @@
+"""Validation and performance cases; each module has ``main(argv)`` and a quick mode."""
