@@ -2,5 +2,8 @@
 
 from .base import MaterialModel, MaterialParameterError, State
 from .elastic import LinearElastic, elastic_matrix
+from .mohr_coulomb import MohrCoulomb
+from .tresca import Tresca
 
-__all__ = ["MaterialModel", "MaterialParameterError", "State", "LinearElastic", "elastic_matrix"]
+__all__ = ["MaterialModel", "MaterialParameterError", "State", "LinearElastic", "elastic_matrix",
+           "MohrCoulomb", "Tresca"]
