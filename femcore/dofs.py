@@ -217,16 +217,25 @@ class ConstraintMap:
         col = self.T_tie[:, [m]].toarray()[:, 0]  # (n_full,)
         return float(col @ r_full)
 
-    def reduce_matrix(self, K: sp.csr_matrix) -> sp.csr_matrix:
-        """``T^T K T`` by a cached scatter of ``K.data`` (pattern of K must not change)."""
-        key = (id(K.indptr), id(K.indices), K.nnz)
-        if self._cache_key != key:
+    def reduce_matrix(self, K: sp.csr_matrix) -> sp.csc_matrix:
+        """``T^T K T`` by a cached scatter of ``K.data``, returned in CSC (what SuperLU takes).
+
+        The index map is rebuilt only when the pattern of ``K`` changes.
+        """
+        if not self._same_pattern(K):
             self._build_cache(K)
-            self._cache_key = key
+            self._cache_key = (K.shape, K.indptr.copy(), K.indices.copy())
         data = np.bincount(self._dst, weights=K.data[self._src] * self._coef,
                            minlength=self._nnz_r)
-        return sp.csr_matrix((data, self._indices_r, self._indptr_r),
+        return sp.csc_matrix((data, self._indices_r, self._indptr_r),
                              shape=(self.n_free, self.n_free))
+
+    def _same_pattern(self, K: sp.csr_matrix) -> bool:
+        if self._cache_key is None:
+            return False
+        shape, indptr, indices = self._cache_key
+        return (shape == K.shape and indices.size == K.indices.size
+                and np.array_equal(indptr, K.indptr) and np.array_equal(indices, K.indices))
 
     def _build_cache(self, K: sp.csr_matrix) -> None:
         T = self.T
@@ -248,10 +257,11 @@ class ConstraintMap:
         b = T.indices[t2].astype(np.int64)
         coef = T.data[t1][k2] * T.data[t2]
         n_free = self.n_free
-        keys = a * n_free + b
+        keys = b * n_free + a  # column-major: CSC of the reduced matrix
         uniq, dst = np.unique(keys, return_inverse=True)
         self._src, self._dst, self._coef = src, dst.ravel(), coef
         self._nnz_r = uniq.size
-        r_rows = uniq // n_free
+        r_cols = uniq // n_free
         self._indices_r = (uniq % n_free).astype(np.int32)
-        self._indptr_r = np.concatenate([[0], np.cumsum(np.bincount(r_rows, minlength=n_free))])
+        self._indptr_r = np.concatenate(
+            [[0], np.cumsum(np.bincount(r_cols, minlength=n_free))]).astype(np.int32)

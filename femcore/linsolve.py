@@ -47,7 +47,7 @@ class _SuperLU:
     def __init__(self, A: sp.spmatrix) -> None:
         try:
             self._lu = spla.splu(
-                sp.csc_matrix(A),
+                A if sp.isspmatrix_csc(A) else sp.csc_matrix(A),
                 permc_spec="MMD_AT_PLUS_A",
                 diag_pivot_thresh=0.001,
                 options={"SymmetricMode": True},

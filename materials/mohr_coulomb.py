@@ -308,9 +308,12 @@ class MohrCoulomb:
             t = self.tension_cutoff * ones if np.isfinite(self.tension_cutoff) else None
         stress, tangent, yielded, region = mohr_coulomb_update(
             trial, D, G, K, c, sphi * ones, spsi * ones, cphi * ones, t)
-        # plastic strain increment = D^-1 (trial - stress)
-        dsig = trial - stress
-        dep = np.linalg.solve(D, dsig[..., None])[..., 0]
+        # plastic strain increment = D^-1 (trial - stress), isotropic compliance in closed form
+        dsig = trial - stress  # (n, 4)
+        dep = np.empty_like(dsig)
+        dep[:, :3] = ((1.0 + self.nu) * dsig[:, :3]
+                      - self.nu * dsig[:, :3].sum(axis=1, keepdims=True)) / E[:, None]
+        dep[:, 3] = dsig[:, 3] / G
         params = dict(state_n.params)
         params["apex_nondilatant"] = ((region == -1) & (spsi == 0.0)).reshape(shape).astype(
             np.float64)

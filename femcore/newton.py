@@ -1,0 +1,83 @@
+"""Newton-Raphson on a residual-and-tangent callback. Knows nothing about materials.
+
+Convergence: ``||r|| <= rtol * scale`` with the scale supplied by the callback (DESIGN 4.5:
+max of the external force and reaction norms). The relative residual of every iteration is
+recorded; failure raises :class:`ConvergenceError` carrying that history.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import scipy.sparse as sp
+from numpy.typing import NDArray
+
+from .linsolve import SolverError, solve
+
+__all__ = ["NewtonResult", "ConvergenceError", "newton"]
+
+
+class ConvergenceError(RuntimeError):
+    """Newton-Raphson did not converge; ``history`` holds the relative residuals."""
+
+    def __init__(self, message: str, history: list[float]) -> None:
+        super().__init__(f"{message}; relative residuals: "
+                         + ", ".join(f"{h:.2e}" for h in history))
+        self.history = list(history)
+
+
+@dataclass
+class NewtonResult:
+    """Converged solution ``x``, iterations used, residual history and the callback payload."""
+
+    x: NDArray[np.float64]
+    iterations: int
+    history: list[float] = field(default_factory=list)
+    payload: Any = None
+
+
+Callback = Callable[[NDArray[np.float64]], tuple[NDArray[np.float64], sp.spmatrix, float, Any]]
+
+
+def newton(
+    residual: Callback,
+    x0: NDArray[np.float64],
+    rtol: float = 1e-6,
+    max_iter: int = 25,
+    backend: str = "superlu",
+    divergence: float = 1e6,
+) -> NewtonResult:
+    """Solve ``r(x) = 0``.
+
+    Parameters
+    ----------
+    residual : callable
+        ``x -> (r, K, scale, payload)``: residual vector, its tangent dr/dx (sparse), the force
+        scale for the relative criterion and anything the caller wants back (e.g. trial states).
+    x0 : initial guess (not modified).
+    rtol : relative tolerance on ``||r|| / scale``.
+    max_iter : iterations allowed.
+    divergence : give up early when the relative residual exceeds this.
+    """
+    x = np.array(x0, dtype=np.float64)
+    history: list[float] = []
+    for it in range(max_iter + 1):
+        r, K, scale, payload = residual(x)
+        scale = scale if scale > 0 and np.isfinite(scale) else 1.0
+        rel = float(np.linalg.norm(r) / scale)
+        history.append(rel)
+        if not np.isfinite(rel) or rel > divergence:
+            raise ConvergenceError(f"diverged after {it} iteration(s)", history)
+        if rel <= rtol:
+            return NewtonResult(x, it, history, payload)
+        if it == max_iter:
+            break
+        try:
+            x = x - solve(K, r, backend)
+        except SolverError as exc:
+            raise ConvergenceError(f"linear solve failed at iteration {it + 1}: {exc}",
+                                   history) from exc
+    raise ConvergenceError(f"no convergence in {max_iter} iterations", history)

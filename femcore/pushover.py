@@ -1,0 +1,209 @@
+"""Displacement-controlled stepping with adaptive increments: the one place state is committed.
+
+Prescribed DOFs (boundary displacements or a reference point's u, w, theta) move from their
+current values by ``increment * lam`` as the load factor ``lam`` goes from 0 to 1; all other
+external forces (``f_ext``: weight, a held vertical load, ...) stay constant. Each increment is
+solved by Newton-Raphson from the last converged state, starting from a linear extrapolation
+of the previous increment (without it the first iterate concentrates the whole prescribed
+increment in the elements next to the controlled nodes, and far more points flip between
+elastic and plastic); on failure the increment is halved (bounded), after easy convergence it
+grows. The material state is committed only here, after
+a converged increment. Progress and output go through a callback.
+"""
+
+from __future__ import annotations
+
+import logging
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+
+from materials.base import State
+
+from .dofs import ConstraintMap
+from .model import Model
+from .newton import ConvergenceError, newton
+
+__all__ = ["PushoverSettings", "StepRecord", "PushoverResult", "Pushover", "residual_callback"]
+
+log = logging.getLogger(__name__)
+
+
+@dataclass(frozen=True)
+class PushoverSettings:
+    """Stepping controls (load-factor units: 1 = the whole prescribed increment)."""
+
+    initial_step: float = 0.02
+    min_step: float = 1e-4
+    max_step: float = 0.1
+    grow: float = 1.5
+    easy_iterations: int = 6
+    hard_iterations: int = 12
+    rtol: float = 1e-6
+    max_iterations: int = 25
+    drop_fraction: float | None = None  # stop when |force| < (1 - drop) * peak
+    backend: str = "superlu"
+
+    def __post_init__(self) -> None:
+        if not 0 < self.min_step <= self.initial_step <= self.max_step <= 1:
+            raise ValueError("need 0 < min_step <= initial_step <= max_step <= 1, got "
+                             f"{self.min_step}, {self.initial_step}, {self.max_step}")
+
+
+@dataclass
+class StepRecord:
+    """One converged increment."""
+
+    lam: float
+    displacement: NDArray[np.float64]  # (n_control,) prescribed values
+    force: NDArray[np.float64]  # (n_control,) generalised reactions at the controlled DOFs
+    monitor: NDArray[np.float64]  # (n_monitor,) displacements of monitored DOFs
+    iterations: int
+    history: list[float]
+
+
+@dataclass
+class PushoverResult:
+    status: str  # "ok" (target reached or post-peak stop) or "diverged"
+    message: str
+    records: list[StepRecord]
+    u: NDArray[np.float64]
+    states: list[State]
+    seconds: float = 0.0
+    cutbacks: int = 0
+
+    @property
+    def lam(self) -> NDArray[np.float64]:
+        return np.array([r.lam for r in self.records])
+
+    @property
+    def displacement(self) -> NDArray[np.float64]:
+        return np.array([r.displacement for r in self.records])  # (n_steps, n_control)
+
+    @property
+    def force(self) -> NDArray[np.float64]:
+        return np.array([r.force for r in self.records])  # (n_steps, n_control)
+
+    @property
+    def iterations(self) -> NDArray[np.int64]:
+        return np.array([r.iterations for r in self.records])
+
+
+def residual_callback(model: Model, cmap: ConstraintMap, f_ext: NDArray[np.float64],
+                      states: list[State]):
+    """Newton callback for the current prescribed values: ``u_free -> (r, K, scale, payload)``.
+
+    ``scale`` = max(||T^T f_ext||, ||reactions at prescribed DOFs||) (DESIGN 4.5).
+    """
+    f_ext_red = np.linalg.norm(cmap.reduce_vector(f_ext))
+
+    def residual(u_free):
+        u = cmap.expand(u_free)
+        f_int, K, trial = model.evaluate(u, states)
+        r_full = f_int - f_ext
+        generalized = cmap.generalized(r_full)
+        scale = max(f_ext_red, float(np.linalg.norm(generalized[cmap.fixed])))
+        return (cmap.reduce_vector(r_full), cmap.reduce_matrix(K), scale,
+                (u, trial, generalized))
+
+    return residual
+
+
+@dataclass
+class Pushover:
+    """Drive prescribed DOFs by ``increments`` (same order as ``control_dofs``).
+
+    Parameters
+    ----------
+    model, cmap : the model and its constraints (the controlled DOFs must be prescribed)
+    f_ext : (n_dofs,) external forces held constant
+    control_dofs : full DOF numbers of the prescribed DOFs to move
+    increments : total change of each controlled DOF over the pushover
+    monitor_dofs : DOFs whose displacement is recorded each step (e.g. settlement)
+    """
+
+    model: Model
+    cmap: ConstraintMap
+    f_ext: NDArray[np.float64]
+    control_dofs: Sequence[int]
+    increments: Sequence[float]
+    monitor_dofs: Sequence[int] = ()
+    settings: PushoverSettings = field(default_factory=PushoverSettings)
+
+    def run(
+        self,
+        u0: NDArray[np.float64] | None = None,
+        states0: list[State] | None = None,
+        callback: Callable[[StepRecord], None] | None = None,
+    ) -> PushoverResult:
+        t_start = time.perf_counter()
+        cfg, cmap, model = self.settings, self.cmap, self.model
+        positions = np.array([cmap.fixed_position(d) for d in self.control_dofs])
+        base = cmap.prescribed_values
+        if u0 is not None:  # start from the current displacement of the controlled DOFs
+            base[positions] = u0[list(self.control_dofs)]
+        inc = np.asarray(self.increments, dtype=np.float64)
+        ctrl_master = cmap.master_index[list(self.control_dofs)]
+        states = states0 if states0 is not None else model.initial_states()
+        u = np.zeros(model.n_dofs) if u0 is None else np.array(u0, dtype=np.float64)
+        u_free = _free_part(cmap, u)
+        records: list[StepRecord] = []
+        lam, step, cutbacks, peak = 0.0, cfg.initial_step, 0, 0.0
+        velocity = None  # d(u_free)/d(lam) of the last increment: the predictor
+        status, message = "ok", "target reached"
+        while lam < 1.0 - 1e-12:
+            step = min(step, 1.0 - lam)
+            values = _current(base, positions, inc, lam + step)
+            cmap.set_prescribed(values)
+            guess = u_free if velocity is None else u_free + step * velocity
+            try:
+                res = newton(residual_callback(model, cmap, self.f_ext, states), guess,
+                             rtol=cfg.rtol, max_iter=cfg.max_iterations, backend=cfg.backend)
+            except ConvergenceError as exc:
+                cutbacks += 1
+                log.debug("increment %.3g failed at lam %.4f: %s", step, lam, exc)
+                step *= 0.5
+                if step < cfg.min_step:
+                    status = "diverged"
+                    message = f"no convergence at load factor {lam:.4f} with step {step:.2e}: {exc}"
+                    break
+                continue
+            # converged: commit
+            u_full, trial, generalized = res.payload
+            velocity = (res.x - u_free) / step
+            states, u_free, u, lam = trial, res.x, u_full, lam + step
+            force = generalized[ctrl_master]
+            rec = StepRecord(lam, values[positions].copy(), force.copy(),
+                             u_full[list(self.monitor_dofs)].copy(), res.iterations, res.history)
+            records.append(rec)
+            if callback is not None:
+                callback(rec)
+            if res.iterations <= cfg.easy_iterations:
+                step = min(step * cfg.grow, cfg.max_step)
+            elif res.iterations >= cfg.hard_iterations:
+                step = max(step * 0.7, cfg.min_step)
+            size = float(np.abs(force).max()) if force.size else 0.0
+            peak = max(peak, size)
+            if cfg.drop_fraction is not None and size < (1.0 - cfg.drop_fraction) * peak:
+                message = f"stopped after the peak: force fell by more than {cfg.drop_fraction:.0%}"
+                break
+        cmap.set_prescribed(_current(base, positions, inc, lam))  # leave the map at the end state
+        return PushoverResult(status, message, records, u, states,
+                              time.perf_counter() - t_start, cutbacks)
+
+
+def _free_part(cmap: ConstraintMap, u: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Free unknowns of a full displacement vector (free master DOFs are full DOFs)."""
+    full_of_master = np.full(cmap.T_tie.shape[1], -1, dtype=np.int64)
+    masters = np.flatnonzero(cmap.master_index >= 0)
+    full_of_master[cmap.master_index[masters]] = masters
+    return u[full_of_master[cmap.free]].copy()
+
+
+def _current(base, positions, inc, lam):
+    values = base.copy()
+    values[positions] = base[positions] + lam * inc
+    return values
