@@ -75,97 +75,118 @@ def region_name(code: int) -> str:
     return "+".join(_PLANE_NAMES[k] for k in _CANDIDATES[code])
 
 
-def _planes(sin_phi, sin_psi, cos_phi, c, t):
-    """Gradients ``n_f``, ``n_g`` (n, 6, 3) and offsets ``r`` (n, 6): ``f = n_f . s - r``."""
-    n = c.shape[0]
-    a, b = 1.0 + sin_phi, -(1.0 - sin_phi)
-    ag, bg = 1.0 + sin_psi, -(1.0 - sin_psi)
-    nf = np.zeros((n, 6, 3))
-    ng = np.zeros((n, 6, 3))
+def _plane_gradients(sin_phi: float, sin_psi: float):
+    """Yield and potential gradients of the six planes, ``(6, 3)`` each (constant)."""
+    nf = np.zeros((6, 3))
+    ng = np.zeros((6, 3))
     for k, (i, j) in enumerate(((0, 2), (1, 2), (0, 1))):  # MC13, MC23, MC12
-        nf[:, k, i], nf[:, k, j] = a, b
-        ng[:, k, i], ng[:, k, j] = ag, bg
-    for k in range(3):
-        nf[:, 3 + k, k] = 1.0
-        ng[:, 3 + k, k] = 1.0
-    r = np.empty((n, 6))  # (n, 6)
-    r[:, :3] = (2.0 * c * cos_phi)[:, None]
+        nf[k, i], nf[k, j] = 1.0 + sin_phi, -(1.0 - sin_phi)
+        ng[k, i], ng[k, j] = 1.0 + sin_psi, -(1.0 - sin_psi)
+    nf[3:, :] = ng[3:, :] = np.eye(3)
+    return nf, ng
+
+
+def _offsets(c, cos_phi: float, t) -> NDArray[np.float64]:
+    """Plane offsets ``r (n, 6)`` with ``f = n_f . s - r``."""
+    r = np.empty((c.shape[0], 6))  # (n, 6)
+    r[:, :3] = (2.0 * cos_phi * c)[:, None]
     r[:, 3:] = np.inf if t is None else t[:, None]
-    return nf, ng, r
+    return r
 
 
-def principal_return(
-    s_trial: NDArray[np.float64], G, K, c, sin_phi, sin_psi, cos_phi, t=None
-):
+def principal_return(s_trial: NDArray[np.float64], G, K, c, sin_phi: float, sin_psi: float,
+                     cos_phi: float, t=None):
     """Return map of sorted principal trial stresses ``s_trial (n, 3)``.
 
-    Parameters are arrays ``(n,)`` (``t`` None disables the cut-off). Returns the returned
-    sorted stresses ``(n, 3)``, the principal tangent ``H = ds/ds* (n, 3, 3)`` and a region
-    code ``(n,)``: index into the candidate list, -1 for a forced apex return.
+    ``G``, ``K``, ``c`` (and ``t``, None to disable the cut-off) are arrays ``(n,)``; the angles
+    are scalars. Returns the returned sorted stresses ``(n, 3)``, the principal tangent
+    ``H = ds/ds* (n, 3, 3)`` and a region code ``(n,)`` (see :func:`region_name`).
     """
     n = s_trial.shape[0]
-    nf, ng, r = _planes(sin_phi, sin_psi, cos_phi, c, t)
-    lam = K - 2.0 * G / 3.0
-    Dp = np.zeros((n, 3, 3)) + lam[:, None, None]  # (n, 3, 3) principal elasticity
-    Dp[:, [0, 1, 2], [0, 1, 2]] += 2.0 * G[:, None]
+    nf, ng = _plane_gradients(sin_phi, sin_psi)
+    r = _offsets(c, cos_phi, t)
+    lam = K - 2.0 * G / 3.0  # (n,)
     scale = np.maximum(np.abs(s_trial).max(axis=1), np.maximum(np.abs(c), 1.0))  # (n,)
     tol = 1e-10 * scale
 
+    def d_ng(idx, planes):  # D_p n_g for points idx and planes: (m, p, 3)
+        g = ng[planes]  # (p, 3)
+        return (lam[idx, None, None] * g.sum(axis=1)[None, :, None]
+                + 2.0 * G[idx, None, None] * g[None])
+
     s_out = s_trial.copy()
-    H = np.broadcast_to(np.eye(3), (n, 3, 3)).copy()  # (n, 3, 3)
+    H = np.zeros((n, 3, 3))  # (n, 3, 3)
     region = np.full(n, -2, dtype=np.int64)  # -2 unresolved
+
+    # 1. main plane in closed form: most plastic points end here
+    everyone = np.arange(n)
+    Dn13 = d_ng(everyone, [_MC13])[:, 0]  # (n, 3)
+    a13 = Dn13 @ nf[_MC13]  # (n,)
+    dg = (s_trial @ nf[_MC13] - r[:, _MC13]) / a13
+    s_main = s_trial - dg[:, None] * Dn13  # (n, 3)
+    ok = (dg >= 0.0) & np.all(s_main @ nf.T - r <= tol[:, None], axis=1)
+    s_out[ok] = s_main[ok]
+    H[ok] = np.eye(3) - Dn13[ok, :, None] * (nf[_MC13] / a13[ok, None])[:, None, :]
+    region[ok] = 0
+
+    # 2. edges, cut-off and corners: small linear systems on the remaining points
     cands = _CANDIDATES if t is not None else _CANDIDATES[:_N_WITHOUT_CUTOFF]
-    Dng = np.einsum("nij,nkj->nki", Dp, ng)  # (n, 6, 3) D_p n_g for every plane
-    for ci, active in enumerate(cands):
+    for ci, active in enumerate(cands[1:], start=1):
         todo = np.flatnonzero(region == -2)
         if todo.size == 0:
             break
         act = list(active)
-        Nf = nf[todo][:, act]  # (m, p, 3)
-        DNg = Dng[todo][:, act]  # (m, p, 3)
-        A = np.einsum("mpi,mqi->mpq", Nf, DNg)  # (m, p, p)
+        Nf = nf[act]  # (p, 3)
+        DNg = d_ng(todo, act)  # (m, p, 3)
+        A = np.einsum("pi,mqi->mpq", Nf, DNg)  # (m, p, p)
         det = np.linalg.det(A)
-        ok = np.abs(det) > 1e-12 * np.abs(A).max(axis=(1, 2)) ** len(act)
-        if not np.any(ok):
+        usable = np.abs(det) > 1e-12 * np.abs(A).max(axis=(1, 2)) ** len(act)
+        if not np.any(usable):
             continue
-        todo, Nf, DNg, A = todo[ok], Nf[ok], DNg[ok], A[ok]
+        todo, DNg, A = todo[usable], DNg[usable], A[usable]
         st = s_trial[todo]
-        f_act = np.einsum("mpi,mi->mp", Nf, st) - r[todo][:, act]  # (m, p)
+        f_act = st @ Nf.T - r[todo][:, act]  # (m, p)
         dgam = np.linalg.solve(A, f_act[..., None])[..., 0]  # (m, p)
         s_new = st - np.einsum("mpi,mp->mi", DNg, dgam)  # (m, 3)
-        f_all = np.einsum("mki,mi->mk", nf[todo], s_new) - r[todo]  # (m, 6)
-        good = np.all(dgam >= -tol[todo, None] / np.maximum(G[todo, None], 1e-300), axis=1)
-        good &= np.all(f_all <= tol[todo, None], axis=1)
+        good = np.all(dgam >= -tol[todo, None] / G[todo, None], axis=1)
+        good &= np.all(s_new @ nf.T - r[todo] <= tol[todo, None], axis=1)
         if not np.any(good):
             continue
         idx = todo[good]
         s_out[idx] = s_new[good]
-        Ainv_Nf = np.linalg.solve(A[good], Nf[good])  # (g, p, 3)
+        Ainv_Nf = np.linalg.solve(A[good], np.broadcast_to(Nf, (idx.size, *Nf.shape)))
         H[idx] = np.eye(3) - np.einsum("gpi,gpj->gij", DNg[good], Ainv_Nf)
         region[idx] = ci
+
+    # 3. beyond the apex: s1 = s2 = s3 = c cot(phi), zero tangent
     left = np.flatnonzero(region == -2)
-    if left.size:  # beyond the apex with non-dilatant flow and no cut-off
-        apex = c[left] * cos_phi[left] / np.maximum(sin_phi[left], 1e-300)
-        s_out[left] = apex[:, None]
-        H[left] = 0.0
+    if left.size:
+        s_out[left] = (c[left] * cos_phi / max(sin_phi, 1e-300))[:, None]
         region[left] = -1
     return s_out, H, region
 
 
-def _rotation(alpha: NDArray[np.float64]) -> NDArray[np.float64]:
-    """Stress rotation ``(n, 4, 4)`` for [xx, yy, zz, xy] (tensor shear) into axes at alpha."""
+def _rotation(alpha: NDArray[np.float64], strain: bool = False) -> NDArray[np.float64]:
+    """Rotation ``(n, 4, 4)`` of [xx, yy, zz, xy] into axes at angle alpha: stress (tensor
+    shear) or, with ``strain=True``, strain with engineering shear."""
     c, s = np.cos(alpha), np.sin(alpha)
+    f = 2.0 if strain else 1.0
     R = np.zeros((alpha.size, 4, 4))
-    R[:, 0, 0], R[:, 0, 1], R[:, 0, 3] = c * c, s * s, 2 * c * s
-    R[:, 1, 0], R[:, 1, 1], R[:, 1, 3] = s * s, c * c, -2 * c * s
+    R[:, 0, 0], R[:, 0, 1], R[:, 0, 3] = c * c, s * s, 2 * c * s / f
+    R[:, 1, 0], R[:, 1, 1], R[:, 1, 3] = s * s, c * c, -2 * c * s / f
     R[:, 2, 2] = 1.0
-    R[:, 3, 0], R[:, 3, 1], R[:, 3, 3] = -c * s, c * s, c * c - s * s
+    R[:, 3, 0], R[:, 3, 1], R[:, 3, 3] = -c * s * f, c * s * f, c * c - s * s
     return R
 
 
-def mohr_coulomb_update(trial, D, G, K, c, sin_phi, sin_psi, cos_phi, t):
-    """Return map of trial stresses ``(n, 4)``: stress ``(n, 4)``, tangent ``(n, 4, 4)``,
-    yielded ``(n,)`` and region ``(n,)`` (-3 for elastic points)."""
+def mohr_coulomb_update(trial, G, K, c, sin_phi, sin_psi, cos_phi, t, tangent):
+    """Return map of trial stresses ``(n, 4)``.
+
+    ``tangent (n, 4, 4)`` holds the elastic matrix on entry and is overwritten at plastic
+    points with the consistent tangent ``C = R_s^-1 (H D') R_e`` (D' the elastic matrix in
+    principal axes, R_s / R_e the stress / strain rotations; isotropy gives R_s D = D R_e).
+    Returns stress ``(n, 4)``, yielded ``(n,)`` and region ``(n,)`` (-3 for elastic points).
+    """
     n = trial.shape[0]
     xx, yy, zz, xy = trial.T
     mean, diff = 0.5 * (xx + yy), 0.5 * (xx - yy)
@@ -174,47 +195,46 @@ def mohr_coulomb_update(trial, D, G, K, c, sin_phi, sin_psi, cos_phi, t):
     p3 = np.stack([s_a, s_b, zz], axis=1)  # (n, 3) principal triple (a, b, z)
     order = np.argsort(-p3, axis=1, kind="stable")  # (n, 3) sorted position -> abz index
     s_sorted = np.take_along_axis(p3, order, axis=1)
-    nf, _ng, r = _planes(sin_phi, sin_psi, cos_phi, c, t)
-    f = np.einsum("nki,ni->nk", nf, s_sorted) - r  # (n, 6)
+    # with s1 >= s2 >= s3 the largest MC plane is MC13 and the largest cut-off plane is T1
+    f_max = ((1.0 + sin_phi) * s_sorted[:, 0] - (1.0 - sin_phi) * s_sorted[:, 2]
+             - 2.0 * c * cos_phi)
+    if t is not None:
+        f_max = np.maximum(f_max, s_sorted[:, 0] - t)
     scale = np.maximum(np.abs(s_sorted).max(axis=1), np.maximum(np.abs(c), 1.0))
-    plastic = np.flatnonzero(f.max(axis=1) > 1e-10 * scale)
-
+    P = np.flatnonzero(f_max > 1e-10 * scale)
     stress = trial.copy()
-    tangent = np.array(np.broadcast_to(D, (n, 4, 4)))  # (n, 4, 4)
     region = np.full(n, -3, dtype=np.int64)
-    if plastic.size == 0:
-        return stress, tangent, np.zeros(n, dtype=bool), region
-    P = plastic
-    s_ret, H_sorted, reg = principal_return(
-        s_sorted[P], G[P], K[P], c[P], sin_phi[P], sin_psi[P], cos_phi[P],
-        None if t is None else t[P])
-    region[P] = reg
-    # unsort: back to the (a, b, z) order
+    yielded = np.zeros(n, dtype=bool)
+    if P.size == 0:
+        return stress, yielded, region
+    yielded[P] = True
+    s_ret, H_sorted, region[P] = principal_return(
+        s_sorted[P], G[P], K[P], c[P], sin_phi, sin_psi, cos_phi, None if t is None else t[P])
+    # back to the (a, b, z) order
     o = order[P]
     s_abz = np.empty_like(s_ret)
     np.put_along_axis(s_abz, o, s_ret, axis=1)
     inv = np.argsort(o, axis=1)  # abz index -> sorted position
     H_abz = np.take_along_axis(np.take_along_axis(H_sorted, inv[:, :, None], axis=1),
                                inv[:, None, :], axis=2)  # (m, 3, 3)
-    # in-plane spin term; limit for equal in-plane trial stresses
+    # in-plane spin term; its limit for equal in-plane trial stresses
     gap = s_a[P] - s_b[P]
-    spin_lim = 0.5 * (H_abz[:, 0, 0] - H_abz[:, 0, 1] - H_abz[:, 1, 0] + H_abz[:, 1, 1])
     small = np.abs(gap) <= 1e-12 * scale[P]
-    spin = np.where(small, spin_lim,
+    spin = np.where(small,
+                    0.5 * (H_abz[:, 0, 0] - H_abz[:, 0, 1] - H_abz[:, 1, 0] + H_abz[:, 1, 1]),
                     (s_abz[:, 0] - s_abz[:, 1]) / np.where(small, 1.0, gap))
-    Hfull = np.zeros((P.size, 4, 4))  # (m, 4, 4) in principal axes
-    Hfull[:, :3, :3] = H_abz
-    Hfull[:, 3, 3] = spin
     alpha = 0.5 * np.arctan2(2.0 * xy[P], xx[P] - yy[P])
-    R = _rotation(alpha)
-    Rinv = _rotation(-alpha)
+    Rs_inv = _rotation(-alpha)
     s_princ = np.zeros((P.size, 4))
     s_princ[:, :3] = s_abz
-    stress[P] = np.einsum("mkl,ml->mk", Rinv, s_princ)
-    tangent[P] = Rinv @ Hfull @ R @ tangent[P]
-    yielded = np.zeros(n, dtype=bool)
-    yielded[P] = True
-    return stress, tangent, yielded, region
+    stress[P] = np.einsum("mkl,ml->mk", Rs_inv, s_princ)
+    M = np.zeros((P.size, 4, 4))  # H D' in principal axes; D' = lam 1 1^T + 2G I (+ G shear)
+    lam = K[P] - 2.0 * G[P] / 3.0
+    M[:, :3, :3] = (lam[:, None, None] * H_abz.sum(axis=2)[:, :, None]
+                    + 2.0 * G[P][:, None, None] * H_abz)
+    M[:, 3, 3] = spin * G[P]
+    tangent[P] = np.matmul(np.matmul(Rs_inv, M), _rotation(alpha, strain=True))
+    return stress, yielded, region
 
 
 def _check_angle(name: str, value: float, hi: float) -> None:
@@ -293,21 +313,23 @@ class MohrCoulomb:
         n = int(np.prod(shape))
         E = state_n.params["E"].reshape(n)
         c = state_n.params["c"].reshape(n)
-        D = self.elastic_tangent(state_n).reshape(n, 4, 4)
-        deps = (strain - state_n.strain).reshape(n, 4)
-        trial = state_n.stress.reshape(n, 4) + np.einsum("nkl,nl->nk", D, deps)
         G = E / (2.0 * (1.0 + self.nu))
         K = E / (3.0 * (1.0 - 2.0 * self.nu))
+        lam = K - 2.0 * G / 3.0
+        deps = (strain - state_n.strain).reshape(n, 4)
+        trial = state_n.stress.reshape(n, 4).copy()  # (n, 4) elastic trial, isotropic D
+        trial[:, :3] += (lam * deps[:, :3].sum(axis=1))[:, None] + 2.0 * G[:, None] * deps[:, :3]
+        trial[:, 3] += G * deps[:, 3]
+        tangent = elastic_matrix(E, np.full(n, self.nu))  # (n, 4, 4), plastic rows replaced
         sphi, spsi = np.sin(np.radians(self.phi)), np.sin(np.radians(self.psi))
         cphi = np.cos(np.radians(self.phi))
-        ones = np.ones(n)
         t = None
-        if self.tension_cutoff is not None and self.phi > 0.0:
-            t = np.minimum(self.tension_cutoff * ones, c * cphi / sphi)
-        elif self.tension_cutoff is not None:
-            t = self.tension_cutoff * ones if np.isfinite(self.tension_cutoff) else None
-        stress, tangent, yielded, region = mohr_coulomb_update(
-            trial, D, G, K, c, sphi * ones, spsi * ones, cphi * ones, t)
+        if self.tension_cutoff is not None:
+            t = np.full(n, float(self.tension_cutoff))
+            if self.phi > 0.0:
+                t = np.minimum(t, c * cphi / sphi)
+        stress, yielded, region = mohr_coulomb_update(trial, G, K, c, sphi, spsi, cphi, t,
+                                                      tangent)
         # plastic strain increment = D^-1 (trial - stress), isotropic compliance in closed form
         dsig = trial - stress  # (n, 4)
         dep = np.empty_like(dsig)

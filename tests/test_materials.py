@@ -20,9 +20,8 @@ G, K = E / (2 * (1 + NU)), E / (3 * (1 - 2 * NU))
 def _principal(trial, phi, psi, c=10.0, t=None):
     one = np.ones(1)
     s, _H, region = principal_return(
-        np.array([trial], float), G * one, K * one, c * one, np.sin(np.radians(phi)) * one,
-        np.sin(np.radians(psi)) * one, np.cos(np.radians(phi)) * one,
-        None if t is None else t * one)
+        np.array([trial], float), G * one, K * one, c * one, np.sin(np.radians(phi)),
+        np.sin(np.radians(psi)), np.cos(np.radians(phi)), None if t is None else t * one)
     return s[0], int(region[0])
 
 
@@ -109,9 +108,9 @@ def test_consistent_tangent_matches_finite_differences(case):
     eps = np.array(_REGION_CASES[case])
     D = m.elastic_tangent(st)[0, 0]
     one = np.ones(1)
-    *_, region = mohr_coulomb_update((s0 + D @ eps)[None], D, G * one, K * one, 10 * one,
-                                     0.5 * one, np.sin(np.radians(5)) * one,
-                                     np.cos(np.radians(30)) * one, 0 * one)
+    *_, region = mohr_coulomb_update((s0 + D @ eps)[None], G * one, K * one, 10 * one, 0.5,
+                                     np.sin(np.radians(5)), np.cos(np.radians(30)), 0 * one,
+                                     D[None].copy())
     assert region_name(int(region[0])) == case
     sig, C, new = m.update(eps.reshape(1, 1, 4), st)
     C_fd = _fd_tangent(m, eps, st)

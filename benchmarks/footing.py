@@ -1,0 +1,122 @@
+"""Rigid footing problems shared by the collapse benchmarks and their tests.
+
+A rigid footing of width (or diameter) B on the ground surface, its nodes tied to a reference
+point at the footing centre: both displacement components (rough) or only the vertical one
+(smooth). Plane strain uses the symmetric half (x >= 0) for vertical loading and the full width
+for moment; axisymmetric models are always x = r >= 0. The load is driven by the reference
+point's settlement (or rotation); the collapse load is the plateau of the reaction.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from femcore import Model
+from femcore.loads import edge_traction
+from femcore.pushover import Pushover, PushoverResult, PushoverSettings
+from femcore.stages import Layer, Profile, apply_k0, profile_loads
+from materials.base import MaterialModel
+from meshing import layered_domain
+
+__all__ = ["Footing", "FootingResult", "run_footing", "plateau"]
+
+
+@dataclass
+class Footing:
+    """Geometry, soil and loading of a footing problem.
+
+    ``width_factor`` / ``depth_factor``: domain half-width (or radius) and depth in units of B.
+    ``h_near``: element size at the footing edge in units of B; ``h_far`` in units of B.
+    ``surcharge``: pressure on the ground beside the footing (kPa), also the initial isotropic
+    stress of a weightless soil. ``gamma``: unit weight (K0 initial stresses when > 0).
+    """
+
+    material: MaterialModel
+    B: float = 2.0
+    analysis: str = "plane_strain"
+    rough: bool = True
+    control: str = "settlement"  # or "rotation"
+    element: str = "T15"
+    width_factor: float = 3.0
+    depth_factor: float = 2.0
+    h_near: float = 0.05
+    h_far: float = 0.5
+    refine_radius: float = 1.0
+    surcharge: float = 0.0
+    gamma: float = 0.0
+    K0: float = 1.0
+    target: float = 0.05  # settlement / B, or rotation in rad
+    settings: PushoverSettings = field(default_factory=PushoverSettings)
+
+
+@dataclass
+class FootingResult:
+    load: np.ndarray  # mean pressure (kPa) or moment per metre (kNm/m) along the curve
+    displacement: np.ndarray  # settlement (m) or rotation (rad)
+    collapse: float  # plateau value (last point)
+    plateau_change: float  # relative change over the last 15 % of the imposed displacement
+    pushover: PushoverResult
+    n_dofs: int
+
+
+def plateau(displacement: np.ndarray, load: np.ndarray, fraction: float = 0.15) -> float:
+    """Relative load change over the last ``fraction`` of the imposed displacement."""
+    d_end = displacement[-1]
+    k = int(np.searchsorted(np.abs(displacement), abs(d_end) * (1 - fraction)))
+    k = min(k, len(load) - 2)
+    return float(abs(load[-1] - load[k]) / max(abs(load[-1]), 1e-300))
+
+
+def run_footing(f: Footing) -> FootingResult:
+    B = f.B
+    half = f.control == "settlement" or f.analysis == "axisymmetric"
+    x_min = 0.0 if half else -f.width_factor * B
+    width = f.width_factor * B * (1 if half else 2)
+    fx = (0.0, B / 2) if half else (-B / 2, B / 2)
+    mesh = layered_domain(width, f.depth_factor * B, x_min=x_min, footing=fx, h=f.h_far * B,
+                          h_near=f.h_near * B, refine_radius=f.refine_radius * B,
+                          element=f.element)
+    model = Model(mesh, f.analysis)
+    model.add_block("soil", "soil", f.material)
+    model.add_reference_point("footing", (0.0, 0.0))
+    cons = model.constraints()
+    cons.fix_nodes(mesh.nodes_of("left"), (0,))
+    cons.fix_nodes(mesh.nodes_of("right"), (0,))
+    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    nodes = mesh.nodes_of("footing")
+    comps = (0, 1) if f.rough else (1,)
+    if half and f.rough:
+        nodes = nodes[mesh.points[nodes, 0] > 1e-9 * B]  # the symmetry node keeps u = 0
+    cons.tie_rigid(nodes, "footing", comps)
+    dm = model.dofmap
+    U, W, TH = (dm.ref_dof("footing", k) for k in range(3))
+    # settlement: the reference point moves only vertically; rotation: V = H = 0 (free U, W)
+    cons.fix([U, W, TH] if f.control == "settlement" else [TH], 0.0)
+    cmap = cons.build()
+
+    states = model.initial_states()
+    f_ext = np.zeros(model.n_dofs)
+    if f.gamma > 0 or f.surcharge > 0:
+        profile = Profile((Layer(0.0, f.depth_factor * B, f.gamma, K0=f.K0),),
+                          surcharge=f.surcharge)
+        states = apply_k0(model, profile, states)
+        f_ext = profile_loads(model, profile)
+        if f.surcharge > 0:
+            f_ext += edge_traction(mesh, dm, mesh.edge_sets["ground"],
+                                   np.array([0.0, -f.surcharge]), model.analysis)
+    if f.control == "settlement":
+        ctrl, inc = W, -f.target * B
+    else:
+        ctrl, inc = TH, f.target
+    po = Pushover(model, cmap, f_ext, [ctrl], [inc], settings=f.settings)
+    res = po.run(states0=states)
+    force = res.force[:, 0]
+    disp = np.abs(res.displacement[:, 0])
+    if f.control == "settlement":
+        area = np.pi * (B / 2) ** 2 if f.analysis == "axisymmetric" else B / 2
+        load = -force / area
+    else:
+        load = force  # moment per metre
+    return FootingResult(load, disp, float(load[-1]), plateau(disp, load), res, model.n_dofs)
