@@ -47,7 +47,7 @@ def run(quick: bool = False) -> dict:
         "mohr_coulomb_cutoff": MohrCoulomb(E=3e4, nu=0.3, c=5.0, phi=30.0, psi=5.0),
         "mohr_coulomb_no_cutoff": MohrCoulomb(E=3e4, nu=0.3, c=5.0, phi=30.0, psi=30.0,
                                               tension_cutoff=None),
-        "tresca": Tresca(E=1e4, nu=0.49, su=20.0, su_gradient=5.0),
+        "tresca": Tresca(E=5e4, nu=0.49, su=20.0, su_gradient=5.0),
     }
     for name, m in models.items():
         for label, strain in (("heavy", 2e-3), ("light", 3e-4)):

@@ -144,6 +144,7 @@ def layered_domain(
     footing: tuple[float, float] | None = None,
     cap: Sequence[tuple[float, float]] | None = None,
     lines: Sequence[tuple[tuple[float, float], tuple[float, float]]] = (),
+    extra_depths: Sequence[float] = (),
     h: float | None = None,
     h_near: float | None = None,
     refine_radius: float | None = None,
@@ -164,6 +165,9 @@ def layered_domain(
         below ground it replaces soil.
     lines : sequence of ((x0, y0), (x1, y1))
         Straight lines embedded in the mesh (mesh nodes lie on them); edge sets ``line_k``.
+    extra_depths : sequence of float
+        Depths of further horizontal mesh lines that do not start a new layer (e.g. the water
+        table, so that the kink of the initial stresses lies on element edges).
     h, h_near : float
         Far-field and near-feature element sizes (m); defaults depth/8 and h/6.
     refine_radius : float
@@ -186,7 +190,7 @@ def layered_domain(
         occ = gmsh.model.occ
         rect = occ.addRectangle(x0, -depth, 0.0, width, depth)
         tools: list[tuple[int, int]] = []
-        for z in layer_depths:
+        for z in sorted({*layer_depths, *(float(e) for e in extra_depths if 0 < e < depth)}):
             tools.append((1, occ.addLine(occ.addPoint(x0, -z, 0), occ.addPoint(x1, -z, 0))))
         if footing is not None:
             fa, fb = sorted(footing)
