@@ -59,7 +59,7 @@ def drive(
     out_eps, out_sig, out_y, out_C = [], [], [], []
     for step in path:
         eps = np.where(ctrl, step, eps)
-        for it in range(max_iter):
+        for _ in range(max_iter):
             sig, C, trial = model.update(eps.reshape(1, 1, 4), state)
             sig, C = sig[0, 0], C[0, 0]
             r = sig[free] - target[free]

@@ -29,3 +29,31 @@ def test_perf_elastic_assembly_quick(tmp_path):
     assert res["trace_rel_diff"] < 1e-10
     assert res["frobenius_rel_diff"] < 1e-10
     assert res["n_qp"] == res["n_qp_skfem"]  # same integration rule size
+
+
+def test_collapse_script_quick_cylinder(tmp_path):
+    # Hill (1950): p_c = 2 s_u ln(b/a); the script's own band check (T15 0...+1 %, T6 0...+2 %)
+    rows = run_script("collapse", tmp_path, "--only", "cylinder")
+    assert {r["case"] for r in rows} == {"cylinder_T15", "cylinder_T6"}
+    for r in rows:
+        assert r["passed"] and r["band"][0] <= r["error"] <= r["band"][1]
+
+
+@pytest.mark.slow
+def test_collapse_script_full():
+    """Every collapse case of VALIDATION C8-C12, D14, D15 on its standard mesh."""
+    res = subprocess.run([sys.executable, "-m", "benchmarks.collapse"], cwd=ROOT,
+                         capture_output=True, text=True, timeout=3600)
+    assert res.returncode == 0, res.stdout + res.stderr
+
+
+def test_return_map_and_newton_scripts_quick(tmp_path):
+    rm = run_script("perf_return_map", tmp_path)
+    assert all(v > 0 for k, v in rm.items() if k.endswith("_points_per_s"))
+    nw = run_script("perf_newton", tmp_path)
+    rec = nw["3k"]
+    # the phases add up to the iteration, and the state is genuinely elastoplastic
+    phases = sum(v for k, v in rec.items() if k.startswith("t_") and k.endswith("_ms")
+                 and k not in ("t_iteration_ms", "t_outside_solver_ms"))
+    assert phases == pytest.approx(rec["t_iteration_ms"], rel=1e-9)
+    assert 0.02 < rec["plastic_fraction"] < 0.9

@@ -9,11 +9,9 @@ imposed displacement). Coarse meshes keep the default run fast; the fine-mesh ve
 import numpy as np
 import pytest
 
+from benchmarks.collapse import thick_cylinder
 from benchmarks.footing import Footing, run_footing
-from femcore import Model
-from femcore.pushover import Pushover, PushoverSettings
 from materials import MohrCoulomb, Tresca
-from meshing import annulus_sector
 
 SU = 10.0
 NC = 2 + np.pi  # Prandtl (1920); Hill (1950), *The Mathematical Theory of Plasticity*
@@ -71,32 +69,6 @@ def test_pure_moment_bonded_strip():
                             h_near=0.05))
     assert r.plateau_change < 0.005
     _in_band(r.collapse / (B**2 * SU), 0.690, -0.04, 0.04)
-
-
-def thick_cylinder(element, h, su=SU, a=1.0, b=2.0, delta=0.05):
-    """Quarter annulus, inner radial displacement prescribed (tangential zero by symmetry)."""
-    mesh = annulus_sector(a, b, h, element)
-    model = Model(mesh)
-    model.add_block("all", None, Tresca(E=1000 * su, nu=0.49, su=su))
-    cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("x_axis"), (1,))
-    cons.fix_nodes(mesh.nodes_of("y_axis"), (0,))
-    inner = mesh.nodes_of("inner")
-    ang = np.arctan2(mesh.points[inner, 1], mesh.points[inner, 0])
-    ctrl, inc = [], []
-    for node, t in zip(inner, ang, strict=True):
-        if not np.isclose(mesh.points[node, 0], 0.0):  # y_axis nodes keep u_x = 0
-            ctrl.append(2 * node)
-            inc.append(delta * np.cos(t))
-        if not np.isclose(mesh.points[node, 1], 0.0):  # x_axis nodes keep u_y = 0
-            ctrl.append(2 * node + 1)
-            inc.append(delta * np.sin(t))
-    cons.fix(ctrl, 0.0)
-    cmap = cons.build()
-    res = Pushover(model, cmap, np.zeros(model.n_dofs), ctrl, inc,
-                   settings=PushoverSettings(initial_step=0.05)).run()
-    pressure = res.force @ (np.array(inc) / delta) / (a * np.pi / 2)
-    return res, pressure
 
 
 @pytest.mark.parametrize("element,h,hi", [("T15", 0.25, 0.01), ("T6", 0.1, 0.02)])
