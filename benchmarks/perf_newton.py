@@ -18,8 +18,12 @@ import time
 import numpy as np
 
 from femcore import Model
-from femcore.assembly import assemble_vector, element_internal_force, element_stiffness, \
-    element_strain
+from femcore.assembly import (
+    assemble_vector,
+    element_internal_force,
+    element_stiffness,
+    element_strain,
+)
 from femcore.linsolve import solve
 from femcore.pushover import Pushover, PushoverSettings
 from materials import Tresca

@@ -1,7 +1,8 @@
 """Degrees of freedom, Dirichlet conditions and rigid-body (master-slave) ties.
 
 Numbering: soil/cap nodes first, two DOFs each, interleaved node-major (``2*node + d`` with
-d = 0 for u_x, 1 for u_y); then reference points, three DOFs each (u_x, u_y, theta).
+d = 0 for u_x, 1 for u_y); then groups of 3-DOF points (beam nodes, reference points), three
+DOFs each (u_x, u_y, theta).
 
 Rotation sign (DESIGN convention): a positive reference rotation ``theta`` tilts the body so
 that its +x side goes down, i.e. theta is positive clockwise. A node at (x, y) tied to a
@@ -34,21 +35,45 @@ class ConstraintError(ValueError):
 
 @dataclass
 class DofMap:
-    """DOF numbering for ``n_nodes`` 2-DOF nodes plus named 3-DOF reference points."""
+    """DOF numbering: ``n_nodes`` 2-DOF continuum nodes, then groups of 3-DOF points.
+
+    A point group (beam nodes of a pile row, or a single reference point) has DOFs
+    (u_x, u_y, theta) per point, theta clockwise positive.
+    """
 
     n_nodes: int
-    ref_points: dict[str, tuple[float, float]] = field(default_factory=dict)
+    groups: dict[str, NDArray[np.float64]] = field(default_factory=dict)  # name -> (n, 2)
+
+    def add_points(self, name: str, xy: NDArray[np.float64]) -> NDArray[np.int64]:
+        """Add a group of 3-DOF points at ``xy (n, 2)``; returns their DOFs ``(n, 3)``."""
+        if name in self.groups:
+            raise ConstraintError(f"point group {name!r} exists already")
+        self.groups[name] = np.atleast_2d(np.asarray(xy, dtype=np.float64)).copy()
+        return self.point_dofs(name)
 
     def add_reference_point(self, name: str, xy: tuple[float, float]) -> int:
-        """Add a reference point (u_x, u_y, theta); returns its first DOF."""
-        if name in self.ref_points:
-            raise ConstraintError(f"reference point {name!r} exists already")
-        self.ref_points[name] = (float(xy[0]), float(xy[1]))
-        return self.ref_dof(name, 0)
+        """Add a single reference point (u_x, u_y, theta); returns its first DOF."""
+        return int(self.add_points(name, np.array([xy]))[0, 0])
+
+    @property
+    def ref_points(self) -> dict[str, tuple[float, float]]:
+        """Single-point groups by name (the reference points)."""
+        return {k: (float(v[0, 0]), float(v[0, 1])) for k, v in self.groups.items()
+                if len(v) == 1}
+
+    def _first(self, name: str) -> int:
+        if name not in self.groups:
+            raise ConstraintError(f"no point group {name!r}; known: {list(self.groups)}")
+        first = 2 * self.n_nodes
+        for k, v in self.groups.items():
+            if k == name:
+                return first
+            first += 3 * len(v)
+        raise AssertionError("unreachable")
 
     @property
     def n_dofs(self) -> int:
-        return 2 * self.n_nodes + 3 * len(self.ref_points)
+        return 2 * self.n_nodes + 3 * sum(len(v) for v in self.groups.values())
 
     def node_dofs(self, nodes: NDArray[np.int64], component: int) -> NDArray[np.int64]:
         """DOFs of ``nodes`` in direction ``component`` (0 = x, 1 = y)."""
@@ -59,16 +84,22 @@ class DofMap:
         cells = np.asarray(cells, dtype=np.int64)
         return np.stack([2 * cells, 2 * cells + 1], axis=-1).reshape(cells.shape[0], -1)
 
+    def point_dofs(self, name: str) -> NDArray[np.int64]:
+        """DOFs ``(n, 3)`` of a point group."""
+        first = self._first(name)
+        n = len(self.groups[name])
+        return first + np.arange(3 * n, dtype=np.int64).reshape(n, 3)
+
     def ref_dof(self, name: str, component: int) -> int:
         """DOF of a reference point: component 0 = u_x, 1 = u_y, 2 = theta (clockwise)."""
-        names = list(self.ref_points)
-        if name not in self.ref_points:
-            raise ConstraintError(f"no reference point {name!r}; known: {names}")
-        return 2 * self.n_nodes + 3 * names.index(name) + component
+        return self._first(name) + component
+
+    def point_xy(self, name: str) -> NDArray[np.float64]:
+        return self.groups[name]
 
 
 class Constraints:
-    """Collects Dirichlet conditions and rigid ties, then builds a :class:`ConstraintMap`."""
+    """Collects Dirichlet conditions and ties, then builds a :class:`ConstraintMap`."""
 
     def __init__(self, dofmap: DofMap, points: NDArray[np.float64]) -> None:
         self.dofmap = dofmap
@@ -89,29 +120,50 @@ class Constraints:
         for comp in components:
             self.fix(self.dofmap.node_dofs(nodes, comp), value)
 
-    def tie_rigid(self, nodes, ref: str, components=(0, 1)) -> None:
-        """Make the given components of ``nodes`` follow reference point ``ref`` rigidly.
+    def tie(self, slaves, masters, coefs) -> None:
+        """Linear ties ``u[slave_i] = sum_j coefs[i, j] u[masters[i, j]]``.
 
-        ``components=(1,)`` ties only the vertical motion (a smooth rigid punch).
+        ``slaves (m,)``, ``masters (m, p)``, ``coefs (m, p)``. Masters must not be slaves.
         """
+        slaves = np.atleast_1d(np.asarray(slaves, dtype=np.int64))
+        masters = np.asarray(masters, dtype=np.int64).reshape(slaves.size, -1)
+        coefs = np.asarray(coefs, dtype=np.float64).reshape(masters.shape)
+        dup = self._slaves.intersection(slaves.tolist())
+        if dup or len(set(slaves.tolist())) != slaves.size:
+            raise ConstraintError(f"DOF {min(dup) if dup else slaves[0]} is tied twice")
+        self._slaves.update(slaves.tolist())
+        self._slave_rows.append((slaves, masters, coefs))
+
+    def tie_rigid(self, nodes, ref: str, components=(0, 1)) -> None:
+        """Make the given components of continuum ``nodes`` follow reference point ``ref``
+        rigidly. ``components=(1,)`` ties only the vertical motion (a smooth rigid punch)."""
         nodes = np.unique(np.asarray(nodes, dtype=np.int64))
+        self._tie_rigid_xy(self._points[nodes], [self.dofmap.node_dofs(nodes, c) for c in (0, 1)],
+                           ref, components)
+
+    def tie_points_rigid(self, point_dofs, xy, ref: str, rotation: bool = True) -> None:
+        """Tie 3-DOF points (``point_dofs (n, 3)`` at ``xy (n, 2)``) rigidly to ``ref``:
+        translations always, the rotation too when ``rotation`` (a fixed pile head)."""
+        point_dofs = np.atleast_2d(np.asarray(point_dofs, dtype=np.int64))
+        self._tie_rigid_xy(np.atleast_2d(xy), [point_dofs[:, 0], point_dofs[:, 1]], ref, (0, 1))
+        if rotation:
+            th = self.dofmap.ref_dof(ref, 2)
+            self.tie(point_dofs[:, 2], np.full((len(point_dofs), 1), th),
+                     np.ones((len(point_dofs), 1)))
+
+    def _tie_rigid_xy(self, xy, dofs_xy, ref, components) -> None:
         dm = self.dofmap
         xr, yr = dm.ref_points[ref]
-        pts = self._points
         U, W, TH = (dm.ref_dof(ref, k) for k in range(3))
         for comp in components:
-            slave = dm.node_dofs(nodes, comp)
+            slave = dofs_xy[comp]
             if comp == 0:
                 master = np.stack([np.full_like(slave, U), np.full_like(slave, TH)], axis=1)
-                coef = np.stack([np.ones(slave.size), pts[nodes, 1] - yr], axis=1)
+                coef = np.stack([np.ones(slave.size), xy[:, 1] - yr], axis=1)
             else:
                 master = np.stack([np.full_like(slave, W), np.full_like(slave, TH)], axis=1)
-                coef = np.stack([np.ones(slave.size), -(pts[nodes, 0] - xr)], axis=1)
-            dup = self._slaves.intersection(slave.tolist())
-            if dup:
-                raise ConstraintError(f"DOF {min(dup)} is tied twice")
-            self._slaves.update(slave.tolist())
-            self._slave_rows.append((slave, master, coef))
+                coef = np.stack([np.ones(slave.size), -(xy[:, 0] - xr)], axis=1)
+            self.tie(slave, master, coef)
 
     def build(self) -> ConstraintMap:
         n = self.dofmap.n_dofs

@@ -52,13 +52,23 @@ class SolidBlock:
     element_dofs: NDArray[np.int64]
     unit_weight: float = 0.0
 
+    def initial_state(self) -> State:
+        return self.material.initial_state(self.geom.x)
+
+    def evaluate(self, u_e: NDArray[np.float64], state: State, tangent: bool = True):
+        """Element forces ``(c, i)``, tangents ``(c, i, i)`` and the trial state."""
+        strain = element_strain(self.geom, u_e)  # (c, q, 4)
+        stress, D, trial = self.material.update(strain, state)
+        f_e = element_internal_force(self.geom, stress)
+        return f_e, (element_stiffness(self.geom, D) if tangent else None), trial
+
 
 @dataclass
 class LinearSolution:
     """Result of a linear solve: full displacements, stresses per block, reactions."""
 
     u: NDArray[np.float64]  # (n_dofs,)
-    stress: list[NDArray[np.float64]]  # per block (c, q, 4)
+    stress: list[NDArray[np.float64] | None]  # per block (c, q, 4); None for beams/springs
     reactions: NDArray[np.float64]  # (n_dofs,) internal minus external force
     states: list[State] = field(default_factory=list)
 
@@ -70,7 +80,7 @@ class Model:
         self.mesh = mesh
         self.analysis = Analysis(analysis)
         self.dofmap = DofMap(mesh.n_nodes)
-        self.blocks: list[SolidBlock] = []
+        self.blocks: list = []  # SolidBlock, BeamBlock, SpringBlock: evaluate(u_e, state)
         self._pattern: SparsePattern | None = None
 
     # ---------------------------------------------------------------- building
@@ -90,6 +100,15 @@ class Model:
         self.blocks.append(block)
         self._pattern = None
         return block
+
+    def add_element_block(self, block) -> None:
+        """Add a non-continuum block (beams, springs) with ``element_dofs`` and ``evaluate``."""
+        self.blocks.append(block)
+        self._pattern = None
+
+    @property
+    def solid_blocks(self) -> list[SolidBlock]:
+        return [b for b in self.blocks if isinstance(b, SolidBlock)]
 
     def add_reference_point(self, name: str, xy: tuple[float, float]) -> int:
         self._pattern = None
@@ -112,13 +131,13 @@ class Model:
         return self._pattern
 
     # ---------------------------------------------------------------- evaluation
-    def initial_states(self) -> list[State]:
-        return [b.material.initial_state(b.geom.x) for b in self.blocks]
+    def initial_states(self) -> list:
+        return [b.initial_state() for b in self.blocks]
 
     def gravity(self) -> NDArray[np.float64]:
         """Global self-weight force of all blocks (unit weights downward)."""
         f = np.zeros(self.n_dofs)
-        for b in self.blocks:
+        for b in self.solid_blocks:
             if b.unit_weight:
                 f += body_force(self.dofmap, self.mesh.cells[b.cells], b.geom,
                                 np.array([0.0, -b.unit_weight]))
@@ -132,12 +151,10 @@ class Model:
         k_blocks = []
         trial = []
         for b, st in zip(self.blocks, states, strict=True):
-            strain = element_strain(b.geom, u[b.element_dofs])  # (c, q, 4)
-            stress, D, new_state = b.material.update(strain, st)
-            f_int += assemble_vector(self.n_dofs, b.element_dofs,
-                                     element_internal_force(b.geom, stress))
+            f_e, K_e, new_state = b.evaluate(u[b.element_dofs], st, tangent)
+            f_int += assemble_vector(self.n_dofs, b.element_dofs, f_e)
             if tangent:
-                k_blocks.append(element_stiffness(b.geom, D))
+                k_blocks.append(K_e)
             trial.append(new_state)
         K = None
         if tangent:
@@ -160,4 +177,5 @@ class Model:
         du = solve(cmap.reduce_matrix(K), -cmap.reduce_vector(r), backend)
         u = cmap.expand(du)
         f_int, _, trial = self.evaluate(u, states, tangent=False)
-        return LinearSolution(u, [s.stress for s in trial], f_int - f_ext, trial)
+        return LinearSolution(u, [getattr(s, "stress", None) for s in trial], f_int - f_ext,
+                              trial)

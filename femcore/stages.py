@@ -25,7 +25,7 @@ from materials.base import State
 from .assembly import assemble_vector, element_internal_force
 from .dofs import ConstraintMap
 from .loads import body_force
-from .model import Model
+from .model import Model, SolidBlock
 
 __all__ = ["Layer", "Profile", "k0_stresses", "profile_loads", "apply_k0",
            "equilibrium_error", "gravity_stresses", "GAMMA_W"]
@@ -124,7 +124,8 @@ def profile_loads(model: Model, profile: Profile, blocks: Sequence[int] | None =
     """Weight of the soil blocks (unit weight from the profile at each point) plus the pore
     pressure load of drained blocks (``drained`` per block; default: from the layer)."""
     f = np.zeros(model.n_dofs)
-    blocks = range(len(model.blocks)) if blocks is None else blocks
+    solid = [i for i, b in enumerate(model.blocks) if isinstance(b, SolidBlock)]
+    blocks = solid if blocks is None else blocks
     for i in blocks:
         b = model.blocks[i]
         depth = np.maximum(-b.geom.x[..., 1], 0.0)  # (c, q)
@@ -146,8 +147,9 @@ def profile_loads(model: Model, profile: Profile, blocks: Sequence[int] | None =
 
 def apply_k0(model: Model, profile: Profile, states: list[State],
              blocks: Sequence[int] | None = None) -> list[State]:
-    """States with K0 stresses in the given blocks (default: all)."""
-    blocks = set(range(len(model.blocks)) if blocks is None else blocks)
+    """States with K0 stresses in the given blocks (default: every continuum block)."""
+    blocks = set(i for i, b in enumerate(model.blocks) if isinstance(b, SolidBlock)) \
+        if blocks is None else set(blocks)
     return [st.with_stress(k0_stresses(profile, b.geom.x)) if i in blocks else st
             for i, (b, st) in enumerate(zip(model.blocks, states, strict=True))]
 
@@ -165,4 +167,5 @@ def gravity_stresses(model: Model, cmap: ConstraintMap, f_ext: NDArray[np.float6
     """Gravity loading: one elastic solve under ``f_ext``; returns stressed states with zero
     strain (the displacements of this stage are discarded, as is common practice)."""
     sol = model.solve_linear(cmap, f_ext, states)
-    return [replace(st, strain=np.zeros_like(st.strain)) for st in sol.states]
+    return [replace(st, strain=np.zeros_like(st.strain)) if isinstance(st, State) else st
+            for st in sol.states]
