@@ -165,10 +165,12 @@ class Constraints:
                 coef = np.stack([np.ones(slave.size), -(xy[:, 0] - xr)], axis=1)
             self.tie(slave, master, coef)
 
-    def build(self) -> ConstraintMap:
+    def build(self, extra_fixed: dict[int, float] | None = None) -> ConstraintMap:
+        """The constraint map; ``extra_fixed`` prescribes further DOFs for this map only."""
+        fixed_all = {**self._fixed, **(extra_fixed or {})}
         n = self.dofmap.n_dofs
         slaves = np.array(sorted(self._slaves), dtype=np.int64)
-        fixed_slaves = self._slaves.intersection(self._fixed)
+        fixed_slaves = self._slaves.intersection(fixed_all)
         if fixed_slaves:
             raise ConstraintError(
                 f"DOF {min(fixed_slaves)} is both tied and prescribed; prescribe the reference "
@@ -193,8 +195,8 @@ class Constraints:
             (np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
             shape=(n, n_master),
         )
-        fixed_dofs = np.array(sorted(self._fixed), dtype=np.int64)
-        fixed_vals = np.array([self._fixed[d] for d in fixed_dofs.tolist()], dtype=np.float64)
+        fixed_dofs = np.array(sorted(fixed_all), dtype=np.int64)
+        fixed_vals = np.array([fixed_all[d] for d in fixed_dofs.tolist()], dtype=np.float64)
         return ConstraintMap(T_tie, master_index, master_index[fixed_dofs], fixed_vals)
 
 

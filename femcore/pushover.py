@@ -63,6 +63,7 @@ class StepRecord:
     monitor: NDArray[np.float64]  # (n_monitor,) displacements of monitored DOFs
     iterations: int
     history: list[float]
+    extra: dict = field(default_factory=dict)  # what the observer returned
 
 
 @dataclass
@@ -123,6 +124,9 @@ class Pushover:
     control_dofs : full DOF numbers of the prescribed DOFs to move
     increments : total change of each controlled DOF over the pushover
     monitor_dofs : DOFs whose displacement is recorded each step (e.g. settlement)
+    f_ext_end : (n_dofs,) optional; external forces then go linearly from ``f_ext`` to it
+    observer : ``(u, states) -> dict`` called on every committed state (e.g. pile forces)
+    stop_when : ``StepRecord -> bool``; True ends the pushover (status "ok")
     """
 
     model: Model
@@ -132,6 +136,9 @@ class Pushover:
     increments: Sequence[float]
     monitor_dofs: Sequence[int] = ()
     settings: PushoverSettings = field(default_factory=PushoverSettings)
+    f_ext_end: NDArray[np.float64] | None = None
+    observer: Callable[[NDArray[np.float64], list], dict] | None = None
+    stop_when: Callable[[StepRecord], bool] | None = None
 
     def run(
         self,
@@ -141,7 +148,8 @@ class Pushover:
     ) -> PushoverResult:
         t_start = time.perf_counter()
         cfg, cmap, model = self.settings, self.cmap, self.model
-        positions = np.array([cmap.fixed_position(d) for d in self.control_dofs])
+        positions = np.array([cmap.fixed_position(d) for d in self.control_dofs],
+                             dtype=np.int64)
         base = cmap.prescribed_values
         if u0 is not None:  # start from the current displacement of the controlled DOFs
             base[positions] = u0[list(self.control_dofs)]
@@ -159,8 +167,10 @@ class Pushover:
             values = _current(base, positions, inc, lam + step)
             cmap.set_prescribed(values)
             guess = u_free if velocity is None else u_free + step * velocity
+            f_ext = self.f_ext if self.f_ext_end is None else \
+                self.f_ext + (lam + step) * (self.f_ext_end - self.f_ext)
             try:
-                res = newton(residual_callback(model, cmap, self.f_ext, states), guess,
+                res = newton(residual_callback(model, cmap, f_ext, states), guess,
                              rtol=cfg.rtol, max_iter=cfg.max_iterations, backend=cfg.backend)
             except ConvergenceError as exc:
                 cutbacks += 1
@@ -177,11 +187,17 @@ class Pushover:
             states, u_free, u, lam = trial, res.x, u_full, lam + step
             force = generalized[ctrl_master]
             rec = StepRecord(lam, values[positions].copy(), force.copy(),
-                             u_full[list(self.monitor_dofs)].copy(), res.iterations, res.history)
+                             u_full[list(self.monitor_dofs)].copy(), res.iterations, res.history,
+                             self.observer(u_full, states) if self.observer else {})
             records.append(rec)
             if callback is not None:
                 callback(rec)
-            if res.iterations <= cfg.easy_iterations:
+            if self.stop_when is not None and self.stop_when(rec):
+                message = "stopping criterion met"
+                break
+            if res.iterations <= 1:  # (nearly) linear response: double
+                step = min(step * max(cfg.grow, 2.0), cfg.max_step)
+            elif res.iterations <= cfg.easy_iterations:
                 step = min(step * cfg.grow, cfg.max_step)
             elif res.iterations >= cfg.hard_iterations:
                 step = max(step * 0.7, cfg.min_step)

@@ -1,0 +1,391 @@
+"""Design -> geometry (gmsh) -> Model: soil layers, elastic cap, pile rows, ties and loads.
+
+Two supports:
+
+* ``continuum``: soil as T6/T15 continuum (Tresca, Mohr-Coulomb or elastic layers, K0 initial
+  stresses with the water table), an elastic cap continuum, each pile row an embedded
+  Euler-Bernoulli beam whose nodes pair with the soil nodes on its line through interface
+  springs (shaft t-z, lateral p-y, tip q-z). Cap contact ``none`` splits the cap underside from
+  the soil (no cap bearing); ``bonded`` shares the nodes.
+* ``springs``: no soil continuum; the same springs anchored to fixed ground and a rigid cap
+  (the classical subgrade-reaction model).
+
+The spring stiffnesses of :mod:`materials.capacity` describe the whole soil response of a
+pile (subgrade reaction). In the continuum the soil mesh already deforms, so the interface
+springs only carry the local pile-soil slip: their stiffness is multiplied by
+``piles.interface_factor`` (default 10, so that the interface adds about a tenth of the
+subgrade compliance in series with the continuum); their limits are unchanged. This is a
+modelling choice, stated in every result.
+
+Everything in the 2D model is per metre of slice (out-of-plane length L); loads are divided
+by L, row stiffnesses and resistances multiplied by n_row / L.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+
+from materials import LinearElastic, MohrCoulomb, Tresca
+from materials.capacity import (
+    lateral_limit,
+    lateral_stiffness,
+    shaft_limit,
+    shaft_stiffness,
+    tip_limit,
+    tip_stiffness,
+)
+
+from .beams import BeamBlock
+from .design import Design, DesignError, SoilLayer
+from .dofs import Constraints
+from .interfaces import SpringBlock
+from .layout import Ring, Row, default_slice_length, lump_rings
+from .mesh import Mesh
+from .model import Model
+from .stages import GAMMA_W, Layer, Profile
+
+__all__ = ["BuiltModel", "PileRow", "build_model", "MESH_SIZES"]
+
+# element size near piles and cap (m) and far-field size (in cap diameters)
+MESH_SIZES = {"coarse": (3.0, 1 / 2.0), "standard": (1.6, 1 / 2.5), "fine": (1.0, 1 / 3.5)}
+
+
+@dataclass
+class PileRow:
+    """One lumped row: its beam, shaft springs, tip spring and metadata."""
+
+    row: Row
+    beam: BeamBlock
+    springs: SpringBlock
+    tip: SpringBlock
+    beam_dofs: NDArray[np.int64]  # (n_nodes, 3)
+    head_xy: tuple[float, float]
+
+
+@dataclass
+class BuiltModel:
+    design: Design
+    model: Model
+    constraints: Constraints  # supports and ties, without the pushover control
+    ref: str
+    ref_xy: tuple[float, float]
+    pedestal_top: float  # y of the tower base (m)
+    slice_length: float
+    rows: list[PileRow]
+    profile: Profile | None
+    meta: dict = field(default_factory=dict)
+
+
+def _soil_material(layer: SoilLayer, top: float):
+    nu = layer.nu if layer.nu is not None else (0.49 if layer.undrained else 0.3)
+    if layer.model == "tresca":
+        if layer.su is None:
+            raise DesignError(f"soil layer {layer.name!r}: model tresca needs su (kPa)")
+        E = layer.E if layer.E is not None else 200.0 * layer.su
+        return Tresca(E=E, nu=nu, su=layer.su, su_gradient=layer.su_gradient,
+                      E_gradient=layer.E_gradient, depth_ref=top)
+    if layer.E is None:
+        raise DesignError(f"soil layer {layer.name!r}: E (kPa) is required")
+    if layer.model == "mohr_coulomb":
+        return MohrCoulomb(E=layer.E, nu=nu, c=layer.c, phi=layer.phi, psi=layer.psi,
+                           E_gradient=layer.E_gradient, depth_ref=top)
+    if layer.model == "elastic":
+        return LinearElastic(E=layer.E, nu=nu, E_gradient=layer.E_gradient, depth_ref=top)
+    raise DesignError(f"soil layer {layer.name!r}: model {layer.model!r} is not one of "
+                      "tresca, mohr_coulomb, elastic")
+
+
+def _k0(layer: SoilLayer) -> float:
+    if layer.K0 is not None:
+        return layer.K0
+    return 0.7 if layer.undrained else 1.0 - np.sin(np.radians(layer.phi))
+
+
+def soil_profile(design: Design) -> Profile:
+    layers, top = [], 0.0
+    for ly in design.soil.layers:
+        layers.append(Layer(top, top + ly.thickness, ly.gamma, ly.gamma_sat, _k0(ly),
+                            drained=not ly.undrained))
+        top += ly.thickness
+    return Profile(tuple(layers), water_table=design.soil.water_table, gamma_w=GAMMA_W)
+
+
+class _SoilAtDepth:
+    """Layer properties at depths (for spring stiffness and limits)."""
+
+    def __init__(self, design: Design, profile: Profile) -> None:
+        self.design, self.profile = design, profile
+        self.tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])[:-1]
+
+    def __call__(self, depth: NDArray[np.float64]) -> dict[str, NDArray[np.float64]]:
+        k = self.profile.layer_index(depth)
+        lys = self.design.soil.layers
+        out: dict[str, list] = {n: [] for n in ("undrained", "su", "phi", "G", "nu")}
+        for kk, z in zip(k, depth, strict=True):  # one entry per spring node (set-up only)
+            ly = lys[kk]
+            mat = _soil_material(ly, self.tops[kk])
+            dz = max(z - self.tops[kk], 0.0)
+            E = (mat.E + mat.E_gradient * dz)
+            nu = mat.nu
+            out["undrained"].append(ly.undrained)
+            out["su"].append((ly.su or 0.0) + ly.su_gradient * dz)
+            out["phi"].append(ly.phi)
+            out["G"].append(E / (2 * (1 + nu)))
+            out["nu"].append(nu)
+        res = {k2: np.array(v) for k2, v in out.items()}
+        sv = self.profile.total_vertical(depth) - self.profile.pore_pressure(depth)
+        res["sigma_v_eff"] = np.maximum(sv, 0.0)
+        return res
+
+
+def _cap_polygon(design: Design) -> tuple[list[tuple[float, float]], float]:
+    cap = design.cap
+    R, rp = cap.diameter / 2, cap.pedestal_diameter / 2
+    yu = -cap.underside_depth
+    yc = yu + cap.centre_thickness
+    ye = yu + cap.edge_thickness
+    top = yc + cap.pedestal_height
+    pts = [(-R, yu), (R, yu), (R, ye), (rp, yc)]
+    if cap.pedestal_height > 0:
+        pts += [(rp, top), (-rp, top)]
+    pts += [(-rp, yc), (-R, ye)]
+    return pts, top
+
+
+def _pile_section(design: Design):
+    p = design.piles
+    if p.shape == "square":
+        A, I, per = p.width**2, p.width**4 / 12, 4 * p.width
+    else:
+        A, I, per = np.pi * p.width**2 / 4, np.pi * p.width**4 / 64, np.pi * p.width
+    return A, I, per, np.sqrt(A / np.pi)
+
+
+def _row_line(row: Row, head_y: float, length: float):
+    dz = length / np.sqrt(1.0 + row.rake**2)
+    side = np.sign(row.x)
+    return (row.x, head_y), (row.x + side * row.rake * dz, head_y - dz)
+
+
+def _split_underside(mesh: Mesh, y: float, x_lim: float):
+    """Duplicate the cap-side nodes of the cap underside (edges at height y strictly inside
+    |x| < x_lim): the cap then has no contact with the soil below it."""
+    tol = 1e-6 * max(1.0, x_lim)
+    edges = mesh.edge_sets.get("cap_soil")
+    if edges is None:
+        raise DesignError("the mesh has no cap-soil boundary")
+    pts = mesh.points
+    under = edges[np.all(np.abs(pts[edges[:, :2], 1] - y) < tol, axis=1)]
+    nodes = np.unique(under)
+    nodes = nodes[np.abs(pts[nodes, 0]) < x_lim - tol]
+    cap_cells = mesh.cell_sets["cap"]
+    new_index = np.full(mesh.n_nodes, -1, dtype=np.int64)
+    new_index[nodes] = mesh.n_nodes + np.arange(nodes.size)
+    cells = mesh.cells.copy()
+    sub = cells[cap_cells]
+    hit = new_index[sub] >= 0
+    sub[hit] = new_index[sub[hit]]
+    cells[cap_cells] = sub
+    points = np.vstack([pts, pts[nodes]])
+    m = Mesh(points, cells, mesh.element, mesh.cell_sets, mesh.edge_sets, mesh.node_sets)
+    return m, nodes, new_index
+
+
+def build_model(design: Design) -> BuiltModel:
+    """The 2D model of a design (see module docstring)."""
+    an, cap, piles, loading = design.analysis, design.cap, design.piles, design.loading
+    if an.geometry != "plane_strain":
+        raise DesignError("analysis.geometry: the piled-cap pushover needs plane_strain "
+                          f"(got {an.geometry!r}); axisymmetric serves vertical loading checks")
+    R = cap.diameter / 2
+    L = an.slice_length if an.slice_length is not None else default_slice_length(R)
+    rings = [Ring(r.radius, r.count, r.rake, r.angle_offset) for r in piles.rings]
+    vertical_extent = piles.length / np.sqrt(1 + max(r.rake for r in rings) ** 2)
+    rows = lump_rings(rings, an.row_merge, depth=vertical_extent)
+    profile = soil_profile(design)
+    soil_at = _SoilAtDepth(design, profile)
+    poly, ped_top = _cap_polygon(design)
+    head_y = -cap.underside_depth
+    A, I, perimeter, r0 = _pile_section(design)
+
+    if loading.control == "lever":
+        if not loading.lever_arm or loading.lever_arm <= 0:
+            raise DesignError("loading.lever_arm (m) must be > 0 for control = lever")
+        ref_xy = (0.0, ped_top + loading.lever_arm)
+    elif loading.control == "rotation":
+        ref_xy = (0.0, ped_top)
+    else:
+        raise DesignError(f"loading.control {loading.control!r} is not rotation or lever")
+
+    meta = {"slice_length_m": L, "rows": [r.__dict__ for r in rows],
+            "support": an.support, "element": an.element, "mesh": an.mesh,
+            "interface_factor": piles.interface_factor if an.support == "continuum" else 1.0}
+    if an.support == "springs":
+        return _build_springs(design, rows, L, profile, soil_at, ref_xy, ped_top, meta,
+                              (A, I, perimeter, r0))
+    if an.support != "continuum":
+        raise DesignError(f"analysis.support {an.support!r} is not continuum or springs")
+
+    from meshing import layered_domain  # gmsh only when a mesh is needed
+
+    h_near, far = MESH_SIZES[an.mesh]
+    width = cap.diameter * (1 + 2 * an.domain_factor)
+    depth = max(cap.underside_depth + vertical_extent + cap.diameter, 2 * cap.diameter)
+    layer_depths = np.cumsum([ly.thickness for ly in design.soil.layers])[:-1]
+    layer_depths = [float(z) for z in layer_depths if 0 < z < depth - 1e-6]
+    total = sum(ly.thickness for ly in design.soil.layers)
+    if total < depth:
+        raise DesignError(f"soil.layers: the layers reach {total:.1f} m but the model needs "
+                          f"{depth:.1f} m (pile tips + one cap diameter); thicken the last layer")
+    lines = [_row_line(r, head_y, piles.length) for r in rows]
+    wt = design.soil.water_table
+    mesh = layered_domain(width, depth, layer_depths, cap=poly, lines=lines,
+                          extra_depths=[wt] if 0 < wt < depth else [], h=far * cap.diameter,
+                          h_near=h_near, refine_radius=4 * h_near + 2.0, element=an.element)
+    split_nodes = np.zeros(0, dtype=np.int64)
+    new_index = None
+    if cap.contact == "none":
+        mesh, split_nodes, new_index = _split_underside(mesh, head_y, R)
+    elif cap.contact != "bonded":
+        raise DesignError(f"cap.contact {cap.contact!r} is not none or bonded")
+
+    model = Model(mesh)
+    tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])
+    for k, ly in enumerate(design.soil.layers, start=1):
+        name = f"layer_{k}"
+        if name in mesh.cell_sets and len(mesh.cell_sets[name]):
+            model.add_block(ly.name, name, _soil_material(ly, tops[k - 1]))
+    model.add_block("cap", "cap", LinearElastic(cap.E, cap.nu), unit_weight=cap.gamma)
+    model.add_reference_point("ref", ref_xy)
+    cons = model.constraints()
+    cons.fix_nodes(mesh.nodes_of("left"), (0,))
+    cons.fix_nodes(mesh.nodes_of("right"), (0,))
+    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    # tower base: pedestal-top nodes tied rigidly to the reference point
+    cap_nodes = np.unique(mesh.cells[mesh.cell_sets["cap"]])
+    tol = 1e-6 * cap.diameter
+    top_nodes = cap_nodes[(np.abs(mesh.points[cap_nodes, 1] - ped_top) < tol)
+                          & (np.abs(mesh.points[cap_nodes, 0]) <= cap.pedestal_diameter / 2
+                             + tol)]
+    cons.tie_rigid(top_nodes, "ref")
+
+    pile_rows = []
+    for k, row in enumerate(rows, start=1):
+        edges = mesh.edge_sets[f"line_{k}"]
+        nodes = np.unique(edges)
+        head = np.array(lines[k - 1][0])
+        order = np.argsort(np.hypot(*(mesh.points[nodes] - head).T))
+        nodes = nodes[order]
+        xy = mesh.points[nodes]
+        pr = _pile_row(model, f"pile_{k}", row, xy, L, design, soil_at, (A, I, perimeter, r0),
+                       soil_nodes=nodes)
+        pile_rows.append(pr)
+        # head: translations follow the cap node at the head; rotation the cap's local rotation
+        cap_head = nodes[0] if new_index is None or new_index[nodes[0]] < 0 \
+            else new_index[nodes[0]]
+        _tie_head_to_cap(cons, model, pr.beam_dofs[0], int(cap_head),
+                         rotation=piles.head == "fixed")
+    meta.update({"n_split_nodes": int(split_nodes.size), "domain_width_m": width,
+                 "domain_depth_m": depth})
+    return BuiltModel(design, model, cons, "ref", ref_xy, ped_top, L, pile_rows, profile, meta)
+
+
+def _tie_head_to_cap(cons: Constraints, model: Model, head_dofs, cap_node: int,
+                     rotation: bool) -> None:
+    """Pile head translations = cap node; rotation (fixed head) = minus the mean local cap
+    rotation (1/2)(dv/dx - du/dy) over the cap cells at that node (clockwise theta)."""
+    cons.tie(head_dofs[:2], [[2 * cap_node], [2 * cap_node + 1]], [[1.0], [1.0]])
+    if not rotation:
+        return
+    mesh = model.mesh
+    cap_cells = mesh.cell_sets["cap"]
+    cells = cap_cells[np.any(mesh.cells[cap_cells] == cap_node, axis=1)]
+    masters, coefs = [], []
+    elem = mesh.element
+    for c in cells:  # the few cells around one node (set-up only)
+        conn = mesh.cells[c]
+        a = int(np.flatnonzero(conn == cap_node)[0])
+        dN_ref = elem.shape_gradients(elem.nodes[a:a + 1])[0]  # (n_en, 2)
+        J = mesh.points[conn].T @ dN_ref  # (2, 2)
+        dN = dN_ref @ np.linalg.inv(J)  # (n_en, 2)
+        # clockwise theta = -(1/2)(dv/dx - du/dy) = (1/2)(du/dy - dv/dx)
+        masters += [2 * conn, 2 * conn + 1]
+        coefs += [0.5 * dN[:, 1] / len(cells), -0.5 * dN[:, 0] / len(cells)]
+    cons.tie([head_dofs[2]], [np.concatenate(masters)], [np.concatenate(coefs)])
+
+
+def _pile_row(model: Model, name: str, row: Row, xy, L: float, design: Design, soil_at,
+              section, soil_nodes=None) -> PileRow:
+    A, I, perimeter, r0 = section
+    piles = design.piles
+    f = row.count / L  # piles per metre of slice
+    fk = f * (1.0 if soil_nodes is None else piles.interface_factor)  # stiffness scale
+    dofs = model.dofmap.add_points(name, xy)  # (n, 3)
+    edofs = np.concatenate([dofs[:-1], dofs[1:]], axis=1)  # (e, 6)
+    e = len(edofs)
+    beam = BeamBlock(name, xy, edofs, np.full(e, piles.E * A * f), np.full(e, piles.E * I * f))
+    model.add_element_block(beam)
+    seg = beam.length
+    trib = np.zeros(len(xy))
+    trib[:-1] += seg / 2
+    trib[1:] += seg / 2
+    t = (xy[-1] - xy[0]) / np.hypot(*(xy[-1] - xy[0]))  # head -> tip (down)
+    normal = np.array([-t[1], t[0]])
+    n_nodes = len(xy)
+    depth = -xy[:, 1]
+    s = soil_at(depth)
+    below_head = np.hypot(*(xy - xy[0]).T)
+    t_lim = shaft_limit(s["undrained"], s["su"], s["phi"], s["sigma_v_eff"], perimeter,
+                        piles.alpha, piles.beta) * trib * f
+    p_lim = lateral_limit(s["undrained"], s["su"], s["phi"], s["sigma_v_eff"], below_head,
+                          piles.width, piles.lateral_factor) * trib * f
+    kt = shaft_stiffness(s["G"], s["nu"], r0, piles.length) * trib * fk
+    kp = lateral_stiffness(s["G"]) * trib * fk
+    k = np.stack([kt, kp], axis=1)
+    lim = np.stack([t_lim, p_lim], axis=1)
+    soil_dofs = None if soil_nodes is None else np.stack([2 * soil_nodes, 2 * soil_nodes + 1],
+                                                         axis=1)
+    springs = SpringBlock(f"{name}_shaft", dofs[:, :2], soil_dofs, np.tile(t, (n_nodes, 1)),
+                          np.tile(normal, (n_nodes, 1)), k, -lim, lim, depth)
+    model.add_element_block(springs)
+    st = {key: v[-1:] for key, v in s.items()}
+    qb = tip_limit(st["undrained"], st["su"], st["phi"], st["sigma_v_eff"], A) * f
+    kb = tip_stiffness(st["G"], st["nu"], r0) * fk
+    tip = SpringBlock(f"{name}_tip", dofs[-1:, :2],
+                      None if soil_dofs is None else soil_dofs[-1:], t[None], normal[None],
+                      np.array([[kb[0], 0.0]]), np.array([[0.0, 0.0]]),
+                      np.array([[qb[0], 0.0]]), depth[-1:])
+    model.add_element_block(tip)
+    return PileRow(row, beam, springs, tip, dofs, (float(xy[0, 0]), float(xy[0, 1])))
+
+
+def _build_springs(design, rows, L, profile, soil_at, ref_xy, ped_top, meta, section):
+    """Rigid cap on rows of beams with springs anchored to fixed ground."""
+    piles, cap = design.piles, design.cap
+    head_y = -cap.underside_depth
+    mesh = Mesh(np.zeros((3, 2)) + [[0, 0], [1, 0], [0, 1]], np.array([[0, 1, 2]]),
+                Mesh.of_type("T3"))  # placeholder continuum: three fixed nodes, no block
+    model = Model(mesh)
+    model.add_reference_point("ref", ref_xy)
+    cons = model.constraints()
+    cons.fix_nodes(np.arange(3), (0, 1))
+    pile_rows = []
+    n_el = max(20, int(np.ceil(piles.length / 0.5)))
+    for k, row in enumerate(rows, start=1):
+        (x0, y0), (x1, y1) = _row_line(row, head_y, piles.length)
+        s = np.linspace(0.0, 1.0, n_el + 1)[:, None]
+        xy = np.array([x0, y0]) + s * np.array([x1 - x0, y1 - y0])
+        pr = _pile_row(model, f"pile_{k}", row, xy, L, design, soil_at, section)
+        pile_rows.append(pr)
+        cons.tie_points_rigid(pr.beam_dofs[:1], xy[:1], "ref", rotation=piles.head == "fixed")
+    meta.update({"cap_weight_kN_per_m": _cap_area(design) * cap.gamma})
+    return BuiltModel(design, model, cons, "ref", ref_xy, ped_top, L, pile_rows, profile, meta)
+
+
+def _cap_area(design: Design) -> float:
+    pts, _ = _cap_polygon(design)
+    x, y = np.array(pts).T
+    return float(0.5 * abs(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1))))
