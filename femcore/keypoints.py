@@ -11,8 +11,6 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike
 
-_trapezoid = getattr(np, "trapezoid", None) or np.trapz  # numpy < 2 has only trapz
-
 __all__ = ["KeyPoint", "analyse_curve", "secant_at_rotation", "rotation_at_moment",
            "moment_at_rotation", "bilinear_equal_energy", "tangent_intersection",
            "ultimate_plateau", "hyperbolic_fit"]
@@ -69,7 +67,7 @@ def bilinear_equal_energy(theta, M, k_initial: float):
     """Elastic - perfectly plastic idealisation with the initial stiffness whose area up to the
     last rotation equals the curve's: M_y theta_max - M_y^2 / (2 K) = integral M dtheta."""
     th, m = _curve(theta, M)
-    area = float(_trapezoid(m, th))
+    area = float(np.sum(0.5 * (m[1:] + m[:-1]) * np.diff(th)))  # trapezoidal rule
     tmax = th[-1]
     disc = (k_initial * tmax) ** 2 - 2 * k_initial * area
     if disc < 0:
