@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from femcore import Model
+from femcore.interfaces import ContactBlock, contact_pairs
 from femcore.loads import edge_traction
 from femcore.pushover import Pushover, PushoverResult, PushoverSettings
 from femcore.stages import Layer, Profile, apply_k0, profile_loads
@@ -49,6 +50,10 @@ class Footing:
     K0: float = 1.0
     target: float = 0.05  # settlement / B, or rotation in rad
     settings: PushoverSettings = field(default_factory=PushoverSettings)
+    vertical: float = 0.0  # kN/m held during a rotation-controlled run
+    contact: bool = False  # a no-tension contact interface under the footing
+    contact_cohesion: float = 0.0  # kPa, shear strength of the contact while closed
+    contact_stiffness: float = 1e5  # kPa/m
 
 
 @dataclass
@@ -78,15 +83,27 @@ def run_footing(f: Footing) -> FootingResult:
     mesh = layered_domain(width, f.depth_factor * B, x_min=x_min, footing=fx, h=f.h_far * B,
                           h_near=f.h_near * B, refine_radius=f.refine_radius * B,
                           element=f.element)
+    contact = None
+    if f.contact:  # the footing gets its own copies of the surface nodes, joined by contact
+        mesh, new_index = mesh.split_nodes(mesh.nodes_of("footing"), np.zeros(0, np.int64))
+        a, b, t, n, w = contact_pairs(mesh, mesh.edge_sets["footing"], new_index, (0.0, 1.0),
+                                      f.analysis)
+        m = a.size
+        contact = ContactBlock("contact", np.stack([2 * a, 2 * a + 1], 1),
+                               np.stack([2 * b, 2 * b + 1], 1), t, n, w,
+                               np.full(m, f.contact_stiffness), np.full(m, f.contact_stiffness),
+                               np.full(m, f.contact_cohesion), np.zeros(m), np.zeros(m))
     model = Model(mesh, f.analysis)
     model.add_block("soil", "soil", f.material)
+    if contact is not None:
+        model.add_element_block(contact)
     model.add_reference_point("footing", (0.0, 0.0))
     cons = model.constraints()
     cons.fix_nodes(mesh.nodes_of("left"), (0,))
     cons.fix_nodes(mesh.nodes_of("right"), (0,))
     cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
-    nodes = mesh.nodes_of("footing")
-    comps = (0, 1) if f.rough else (1,)
+    nodes = mesh.nodes_of("footing") if contact is None else contact.b_dofs[:, 0] // 2
+    comps = (0, 1) if f.rough or contact is not None else (1,)
     if half and f.rough:
         nodes = nodes[mesh.points[nodes, 0] > 1e-9 * B]  # the symmetry node keeps u = 0
     cons.tie_rigid(nodes, "footing", comps)
@@ -110,8 +127,19 @@ def run_footing(f: Footing) -> FootingResult:
         ctrl, inc = W, -f.target * B
     else:
         ctrl, inc = TH, f.target
+    u0 = None
+    if f.vertical:
+        f_v = f_ext.copy()
+        f_v[W] -= f.vertical
+        res_v = Pushover(model, cons.build(extra_fixed={TH: 0.0}), f_ext, [], [],
+                         f_ext_end=f_v, settings=PushoverSettings(initial_step=0.25,
+                                                                  max_step=0.25)).run(
+            states0=states)
+        if res_v.status != "ok":
+            raise RuntimeError(f"vertical load stage failed: {res_v.message}")
+        f_ext, u0, states = f_v, res_v.u, res_v.states
     po = Pushover(model, cmap, f_ext, [ctrl], [inc], settings=f.settings)
-    res = po.run(states0=states)
+    res = po.run(u0=u0, states0=states)
     force = res.force[:, 0]
     disp = np.abs(res.displacement[:, 0])
     if f.control == "settlement":

@@ -6,7 +6,8 @@ Two supports:
   stresses with the water table), an elastic cap continuum, each pile row an embedded
   Euler-Bernoulli beam whose nodes pair with the soil nodes on its line through interface
   springs (shaft t-z, lateral p-y, tip q-z). Cap contact ``none`` splits the cap underside from
-  the soil (no cap bearing); ``bonded`` shares the nodes.
+  the soil (no cap bearing); ``bonded`` shares the nodes; ``frictional`` splits them and joins
+  them by a zero-thickness contact (Coulomb friction, no tension: the cap can lift off).
 * ``springs``: no soil continuum; the same springs anchored to fixed ground and a rigid cap
   (the classical subgrade-reaction model).
 
@@ -41,7 +42,7 @@ from materials.capacity import (
 from .beams import BeamBlock
 from .design import Design, DesignError, SoilLayer
 from .dofs import Constraints
-from .interfaces import SpringBlock
+from .interfaces import ContactBlock, SpringBlock, contact_pairs
 from .layout import Ring, Row, default_slice_length, lump_rings
 from .mesh import Mesh
 from .model import Model
@@ -171,8 +172,9 @@ def _row_line(row: Row, head_y: float, length: float):
 
 
 def _split_underside(mesh: Mesh, y: float, x_lim: float):
-    """Duplicate the cap-side nodes of the cap underside (edges at height y strictly inside
-    |x| < x_lim): the cap then has no contact with the soil below it."""
+    """Give the cap its own nodes along its underside (edges at height y strictly inside
+    |x| < x_lim). Returns the new mesh, the split nodes, the copy index and the underside
+    edges (soil side)."""
     tol = 1e-6 * max(1.0, x_lim)
     edges = mesh.edge_sets.get("cap_soil")
     if edges is None:
@@ -181,17 +183,8 @@ def _split_underside(mesh: Mesh, y: float, x_lim: float):
     under = edges[np.all(np.abs(pts[edges[:, :2], 1] - y) < tol, axis=1)]
     nodes = np.unique(under)
     nodes = nodes[np.abs(pts[nodes, 0]) < x_lim - tol]
-    cap_cells = mesh.cell_sets["cap"]
-    new_index = np.full(mesh.n_nodes, -1, dtype=np.int64)
-    new_index[nodes] = mesh.n_nodes + np.arange(nodes.size)
-    cells = mesh.cells.copy()
-    sub = cells[cap_cells]
-    hit = new_index[sub] >= 0
-    sub[hit] = new_index[sub[hit]]
-    cells[cap_cells] = sub
-    points = np.vstack([pts, pts[nodes]])
-    m = Mesh(points, cells, mesh.element, mesh.cell_sets, mesh.edge_sets, mesh.node_sets)
-    return m, nodes, new_index
+    new_mesh, new_index = mesh.split_nodes(nodes, mesh.cell_sets["cap"])
+    return new_mesh, nodes, new_index, under
 
 
 def build_model(design: Design) -> BuiltModel:
@@ -247,10 +240,11 @@ def build_model(design: Design) -> BuiltModel:
                           h_near=h_near, refine_radius=4 * h_near + 2.0, element=an.element)
     split_nodes = np.zeros(0, dtype=np.int64)
     new_index = None
-    if cap.contact == "none":
-        mesh, split_nodes, new_index = _split_underside(mesh, head_y, R)
+    underside = None
+    if cap.contact in ("none", "frictional"):
+        mesh, split_nodes, new_index, underside = _split_underside(mesh, head_y, R)
     elif cap.contact != "bonded":
-        raise DesignError(f"cap.contact {cap.contact!r} is not none or bonded")
+        raise DesignError(f"cap.contact {cap.contact!r} is not none, bonded or frictional")
 
     model = Model(mesh)
     tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])
@@ -259,6 +253,8 @@ def build_model(design: Design) -> BuiltModel:
         if name in mesh.cell_sets and len(mesh.cell_sets[name]):
             model.add_block(ly.name, name, _soil_material(ly, tops[k - 1]))
     model.add_block("cap", "cap", LinearElastic(cap.E, cap.nu), unit_weight=cap.gamma)
+    if cap.contact == "frictional":
+        model.add_element_block(_cap_contact(mesh, underside, new_index, design, soil_at))
     model.add_reference_point("ref", ref_xy)
     cons = model.constraints()
     cons.fix_nodes(mesh.nodes_of("left"), (0,))
@@ -291,6 +287,26 @@ def build_model(design: Design) -> BuiltModel:
     meta.update({"n_split_nodes": int(split_nodes.size), "domain_width_m": width,
                  "domain_depth_m": depth})
     return BuiltModel(design, model, cons, "ref", ref_xy, ped_top, L, pile_rows, profile, meta)
+
+
+def _cap_contact(mesh: Mesh, underside, new_index, design: Design, soil_at) -> ContactBlock:
+    """Cap-soil contact under the cap: no tension, Coulomb shear (undrained: s_u at the
+    underside; drained: c' and tan(2 phi' / 3), common practice), normal and shear stiffness
+    100 G / (1 m) of the soil there (stiff enough to add < 1 % compliance, soft enough for
+    Newton)."""
+    a, b, t, n, w = contact_pairs(mesh, underside, new_index, (0.0, 1.0))
+    m = a.size
+    s = soil_at(np.full(m, design.cap.underside_depth + 1e-6))
+    k = 100.0 * s["G"]
+    layer = design.soil.layers[int(soil_at.profile.layer_index(
+        np.array([design.cap.underside_depth + 1e-6]))[0])]
+    if layer.undrained:
+        c, tand = s["su"], np.zeros(m)
+    else:
+        c, tand = np.full(m, layer.c), np.full(m, np.tan(np.radians(2 * layer.phi / 3)))
+    return ContactBlock("cap_contact", np.stack([2 * a, 2 * a + 1], 1),
+                        np.stack([2 * b, 2 * b + 1], 1), t, n, w, k, k.copy(), c, tand,
+                        np.zeros(m))
 
 
 def _tie_head_to_cap(cons: Constraints, model: Model, head_dofs, cap_node: int,

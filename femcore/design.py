@@ -70,7 +70,7 @@ class Cap:
     E: float = 3.3e7  # kPa
     nu: float = 0.2
     gamma: float = 25.0  # kN/m^3
-    contact: str = "none"  # none | bonded
+    contact: str = "none"  # none | bonded | frictional
 
 
 @dataclass(frozen=True)

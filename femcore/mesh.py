@@ -138,6 +138,24 @@ class Mesh:
         return Mesh(pts, cells, self.element, dict(self.cell_sets), dict(self.edge_sets),
                     dict(self.node_sets))
 
+    def split_nodes(self, nodes: NDArray[np.int64], cells: NDArray[np.int64]):
+        """Give ``cells`` their own copies of ``nodes`` (a crack or contact surface).
+
+        Returns the new mesh and ``new_index (n_nodes,)``: the copy of each split node, -1
+        elsewhere. Named sets keep the original nodes; copies are appended at the end.
+        """
+        nodes = np.unique(np.asarray(nodes, dtype=np.int64))
+        new_index = np.full(self.n_nodes, -1, dtype=np.int64)
+        new_index[nodes] = self.n_nodes + np.arange(nodes.size)
+        conn = self.cells.copy()
+        sub = conn[cells]
+        hit = new_index[sub] >= 0
+        sub[hit] = new_index[sub[hit]]
+        conn[cells] = sub
+        pts = np.vstack([self.points, self.points[nodes]])
+        mesh = Mesh(pts, conn, self.element, self.cell_sets, self.edge_sets, self.node_sets)
+        return mesh, new_index
+
     @staticmethod
     def of_type(name: str) -> ReferenceElement:
         """Reference triangle by name ("T3", "T6", "T15")."""
