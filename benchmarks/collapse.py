@@ -14,6 +14,9 @@ the increments / Newton iterations / seconds it took. References:
 * cylinder_{T6,T15}: p_c = 2 s_u ln 2 = 1.386 s_u (Hill 1950); T15 0...+1 %, T6 0...+2 %.
 * nc_{20,30}, nq_{20,30}: Prandtl (1921), Reissner (1924) N_c, N_q; 0...+5 %.
 * ngamma_30_smooth: 7.653 (Martin 2005, 11th IACMAG); -3...+10 %.
+* lateral_disc_rough: limiting lateral pressure on a rough disc in a plane slice,
+  P_u/(s_u D) = 11.94 (Randolph & Houlsby 1984, Geotechnique 34(4); Martin & Randolph 2006),
+  from memory; T15, 0...+3 %.
 
 Run: ``python -m benchmarks.collapse [--quick] [--only NAME] [--json FILE]``.
 """
@@ -226,3 +229,39 @@ def main(argv: list[str] | None = None) -> int:
 
 if __name__ == "__main__":
     raise SystemExit(main())
+
+
+def lateral_disc_pressure(element: str = "T15", h_near: float = 0.05,
+                          half_width: float = 10.0) -> tuple[float, dict]:
+    """P_u / (s_u D) of a rough rigid disc pushed through a plane slice of Tresca soil
+    (symmetric half model, disc tied rigidly to a reference point)."""
+    from femcore import Model
+    from femcore.pushover import Pushover, PushoverSettings
+    from meshing.builders import disc_in_square
+
+    D = 1.0
+    mesh = disc_in_square(D / 2, half_width * D, half_width * D / 5, h_near * D, element)
+    model = Model(mesh)
+    model.add_block("soil", None, Tresca(300 * SU, 0.49, SU))
+    model.add_reference_point("disc", (0.0, 0.0))
+    cons = model.constraints()
+    cons.fix_nodes(mesh.nodes_of("symmetry"), (1,))
+    cons.fix_nodes(mesh.nodes_of("outer"), (0, 1))
+    hole = mesh.nodes_of("hole")
+    above = mesh.points[hole, 1] > 1e-9 * D
+    cons.tie_rigid(hole[above], "disc", (0, 1))
+    cons.tie_rigid(hole[~above], "disc", (0,))  # on the symmetry line v = 0 already
+    dm = model.dofmap
+    U, W, TH = (dm.ref_dof("disc", k) for k in range(3))
+    cons.fix([W, TH], 0.0)
+    res = Pushover(model, cons.build(extra_fixed={U: 0.0}), np.zeros(model.n_dofs), [U],
+                   [0.2 * D], settings=PushoverSettings(initial_step=0.02, max_step=0.1)).run()
+    p = 2 * res.force[:, 0] / (SU * D)  # the full disc carries twice the half model
+    return float(p[-1]), {"n_dofs": model.n_dofs, "increments": len(res.records),
+                          "iterations": int(res.iterations.sum()), "status": res.status,
+                          "element": element}
+
+
+CASES["lateral_disc_rough"] = Case(
+    "lateral_disc_rough", 11.94, (0.0, 0.03), "Randolph & Houlsby 1984; Martin & Randolph 2006",
+    lambda quick: lateral_disc_pressure(h_near=0.05))

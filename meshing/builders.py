@@ -23,7 +23,7 @@ from femcore.mesh import Mesh
 from .convert import from_gmsh_model
 from .session import gmsh_session
 
-__all__ = ["layered_domain", "rectangle", "annulus_sector", "ORDERS"]
+__all__ = ["layered_domain", "rectangle", "annulus_sector", "disc_in_square", "ORDERS"]
 
 ORDERS = {"T3": 1, "T6": 2, "T15": 4}
 
@@ -105,6 +105,37 @@ def annulus_sector(a: float, b: float, h: float, element: str = "T6",
         gmsh.model.addPhysicalGroup(1, [arc_out], name="outer")
         gmsh.model.addPhysicalGroup(2, [s], name="domain")
         _size_field(h, h, 0, 0)
+        return _finish(order)
+
+
+def disc_in_square(radius: float, half_width: float, h: float, h_near: float,
+                   element: str = "T15") -> Mesh:
+    """Upper half (y >= 0) of a square [-a, a] x [0, a] with a circular hole of the given
+    radius at the origin: a plane slice through a laterally loaded pile, symmetric about
+    y = 0. Edge sets ``hole``, ``symmetry`` (y = 0, both sides of the hole), ``outer``."""
+    order = _order(element)
+    with gmsh_session("disc"):
+        occ = gmsh.model.occ
+        a = half_width
+        box = occ.addRectangle(-a, 0.0, 0.0, 2 * a, a)
+        disc = occ.addDisk(0.0, 0.0, 0.0, radius, radius)
+        occ.cut([(2, box)], [(2, disc)])
+        occ.synchronize()
+        tol = 1e-6 * a
+        hole, sym, outer = [], [], []
+        for _, c in gmsh.model.getEntities(1):
+            x0, y0, _, x1, y1, _ = gmsh.model.getBoundingBox(1, c)
+            if abs(y0) < tol and abs(y1) < tol:
+                sym.append(c)
+            elif max(abs(x0), abs(x1), abs(y1)) <= radius + tol:
+                hole.append(c)
+            else:
+                outer.append(c)
+        gmsh.model.addPhysicalGroup(1, hole, name="hole")
+        gmsh.model.addPhysicalGroup(1, sym, name="symmetry")
+        gmsh.model.addPhysicalGroup(1, outer, name="outer")
+        gmsh.model.addPhysicalGroup(2, [s for _, s in gmsh.model.getEntities(2)], name="domain")
+        _size_field(h, h_near, h_near, 6 * radius, curves=hole)
         return _finish(order)
 
 

@@ -9,7 +9,7 @@ imposed displacement). Coarse meshes keep the default run fast; the fine-mesh ve
 import numpy as np
 import pytest
 
-from benchmarks.collapse import thick_cylinder
+from benchmarks.collapse import lateral_disc_pressure, thick_cylinder
 from benchmarks.footing import Footing, run_footing
 from materials import MohrCoulomb, Tresca
 
@@ -132,3 +132,13 @@ def test_ngamma_smooth_30():
                             K0=0.5, refine_radius=1.5))
     assert r.plateau_change < 0.005
     _in_band(r.collapse, 0.5 * gamma * B * 7.653, -0.03, 0.10)
+
+
+def test_limiting_lateral_pressure_rough_disc():
+    """Plane slice of Tresca soil around a rough rigid disc: P_u / (s_u D) = 11.94
+    (Randolph & Houlsby 1984, Geotechnique 34(4); Martin & Randolph 2006), from memory;
+    T15, 0...+3 %. This sets the scale of the lateral spring limit (N_p = 9 is the usual,
+    lower, design value near the surface)."""
+    value, info = lateral_disc_pressure("T15", h_near=0.05)
+    assert info["status"] == "ok"
+    _in_band(value, 11.94, 0.0, 0.03)
