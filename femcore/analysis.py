@@ -110,6 +110,9 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
         return _failed(built, "vertical load stage", res_v, t0)
     t2 = time.perf_counter()
 
+    if loading.control == "settlement":
+        return _settlement_pushover(built, res_w, f_weight, t0, t1, progress, settings)
+
     # ---- stage 4: pushover
     cons = built.constraints
     ctrl = TH if loading.control == "rotation" else U
@@ -160,6 +163,49 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
                "cutbacks": res.cutbacks}
     return Result(status, res.message, curve, kp, req, piles, info, timings, design.name,
                   built, res)
+
+
+def _settlement_pushover(built, res_w, f_weight, t0, t1, progress, settings) -> Result:
+    """Axisymmetric vertical loading: settlement of the tower base from the weight state."""
+    design, model = built.design, built.model
+    loading = design.loading
+    W = model.dofmap.ref_dof(built.ref, 1)
+    cmap = built.constraints.build(extra_fixed={W: 0.0})
+    w0 = float(res_w.u[W])
+    cfg = settings or PushoverSettings(initial_step=1e-3, min_step=1e-5, max_step=0.05)
+    t2 = time.perf_counter()
+    res = Pushover(model, cmap, f_weight, [W], [-loading.settlement_max], monitor_dofs=[W],
+                   settings=cfg, observer=_pile_observer(built)).run(
+        u0=res_w.u, states0=res_w.states, callback=progress)
+    t3 = time.perf_counter()
+    settle = -(res.displacement[:, 0] - w0) if res.records else np.zeros(0)
+    V = -res.force[:, 0] if res.records else np.zeros(0)
+    curve = {"settlement": settle, "vertical": V, "iterations": res.iterations}
+    kp = {}
+    if settle.size >= 2:
+        from .keypoints import KeyPoint, moment_at_rotation, ultimate_plateau
+
+        k0 = V[0] / settle[0]
+        kp["vertical_stiffness"] = KeyPoint("vertical_stiffness", float(k0), "kN/m",
+                                            "secant V/w at the first increment",
+                                            {"settlement": float(settle[0])})
+        tu, vu, censored = ultimate_plateau(settle, V, k0)
+        kp["ultimate_vertical"] = KeyPoint("ultimate_vertical", vu, "kN",
+                                           "plateau: tangent below 2 % of the initial stiffness",
+                                           {"tangent_ratio": 0.02},
+                                           {"settlement": tu, "censored": censored})
+        v_at = moment_at_rotation(settle, V, min(0.1 * design.piles.width, settle[-1]))
+        kp["vertical_at_10pct_width"] = KeyPoint("vertical_at_10pct_width", v_at, "kN",
+                                                 "load at a settlement of 10 % of the pile width",
+                                                 {"settlement": 0.1 * design.piles.width})
+    status = "diverged" if res.status == "diverged" else \
+        ("censored" if kp and kp["ultimate_vertical"].extra["censored"] else "ok")
+    timings = {"build_s": built.meta.get("build_s", 0.0), "stages_s": t2 - t1,
+               "pushover_s": t3 - t2, "total_s": time.perf_counter() - t0,
+               "increments": len(res.records), "iterations": int(res.iterations.sum()),
+               "cutbacks": res.cutbacks}
+    return Result(status, res.message, curve, kp, {}, _pile_summary(built, res),
+                  _model_info(built), timings, design.name, built, res)
 
 
 def _failed(built: BuiltModel, what: str, res: PushoverResult, t0: float) -> Result:

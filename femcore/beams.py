@@ -71,9 +71,9 @@ class BeamBlock:
     def initial_state(self):
         return None
 
-    def evaluate(self, u_e: NDArray[np.float64], state, tangent: bool = True):
+    def evaluate(self, u_e: NDArray[np.float64], state):
         f_e = np.einsum("eij,ej->ei", self.K_e, u_e)
-        return f_e, (self.K_e if tangent else None), state
+        return f_e, lambda: self.K_e, state
 
     def end_forces(self, u_e: NDArray[np.float64]) -> NDArray[np.float64]:
         """Local end forces ``(e, 6)``: (N, V, M) at both ends in the local frame (M ccw)."""

@@ -156,6 +156,20 @@ def _cap_polygon(design: Design) -> tuple[list[tuple[float, float]], float]:
     return pts, top
 
 
+def _axis_polygon(design: Design) -> list[tuple[float, float]]:
+    """Half cap section x >= 0 for axisymmetric models."""
+    cap = design.cap
+    R, rp = cap.diameter / 2, cap.pedestal_diameter / 2
+    yu = -cap.underside_depth
+    yc = yu + cap.centre_thickness
+    ye = yu + cap.edge_thickness
+    top = yc + cap.pedestal_height
+    pts = [(0.0, yu), (R, yu), (R, ye), (rp, yc)]
+    if cap.pedestal_height > 0:
+        pts += [(rp, top)]
+    return pts + [(0.0, top)]
+
+
 def _pile_section(design: Design):
     p = design.piles
     if p.shape == "square":
@@ -190,17 +204,31 @@ def _split_underside(mesh: Mesh, y: float, x_lim: float):
 def build_model(design: Design) -> BuiltModel:
     """The 2D model of a design (see module docstring)."""
     an, cap, piles, loading = design.analysis, design.cap, design.piles, design.loading
-    if an.geometry != "plane_strain":
-        raise DesignError("analysis.geometry: the piled-cap pushover needs plane_strain "
-                          f"(got {an.geometry!r}); axisymmetric serves vertical loading checks")
+    axisym = an.geometry == "axisymmetric"
+    if an.geometry not in ("plane_strain", "axisymmetric"):
+        raise DesignError(f"analysis.geometry {an.geometry!r} is not plane_strain or "
+                          "axisymmetric")
+    if axisym and (loading.control != "settlement" or an.support != "continuum"):
+        raise DesignError("analysis.geometry = axisymmetric serves vertical loading only: it "
+                          "needs loading.control = settlement and analysis.support = continuum "
+                          f"(got {loading.control!r}, {an.support!r})")
+    if loading.control == "settlement" and not axisym:
+        raise DesignError("loading.control = settlement needs analysis.geometry = axisymmetric")
     R = cap.diameter / 2
-    L = an.slice_length if an.slice_length is not None else default_slice_length(R)
     rings = [Ring(r.radius, r.count, r.rake, r.angle_offset) for r in piles.rings]
     vertical_extent = piles.length / np.sqrt(1 + max(r.rake for r in rings) ** 2)
-    rows = lump_rings(rings, an.row_merge, depth=vertical_extent)
+    if axisym:
+        # each ring is one smeared row at its radius; forces and stiffnesses are ring totals
+        L = 1.0
+        rows = [Row(r.radius, float(r.count), r.rake, i) for i, r in enumerate(rings)]
+    else:
+        L = an.slice_length if an.slice_length is not None else default_slice_length(R)
+        rows = lump_rings(rings, an.row_merge, depth=vertical_extent)
     profile = soil_profile(design)
     soil_at = _SoilAtDepth(design, profile)
     poly, ped_top = _cap_polygon(design)
+    if axisym:  # the half section x >= 0 of the cap
+        poly = _axis_polygon(design)
     head_y = -cap.underside_depth
     A, I, perimeter, r0 = _pile_section(design)
 
@@ -208,10 +236,11 @@ def build_model(design: Design) -> BuiltModel:
         if not loading.lever_arm or loading.lever_arm <= 0:
             raise DesignError("loading.lever_arm (m) must be > 0 for control = lever")
         ref_xy = (0.0, ped_top + loading.lever_arm)
-    elif loading.control == "rotation":
+    elif loading.control in ("rotation", "settlement"):
         ref_xy = (0.0, ped_top)
     else:
-        raise DesignError(f"loading.control {loading.control!r} is not rotation or lever")
+        raise DesignError(f"loading.control {loading.control!r} is not rotation, lever or "
+                          "settlement")
 
     meta = {"slice_length_m": L, "rows": [r.__dict__ for r in rows],
             "support": an.support, "element": an.element, "mesh": an.mesh,
@@ -225,7 +254,7 @@ def build_model(design: Design) -> BuiltModel:
     from meshing import layered_domain  # gmsh only when a mesh is needed
 
     h_near, far = MESH_SIZES[an.mesh]
-    width = cap.diameter * (1 + 2 * an.domain_factor)
+    width = cap.diameter * (1 + 2 * an.domain_factor) / (2 if axisym else 1)
     depth = max(cap.underside_depth + vertical_extent + cap.diameter, 2 * cap.diameter)
     layer_depths = np.cumsum([ly.thickness for ly in design.soil.layers])[:-1]
     layer_depths = [float(z) for z in layer_depths if 0 < z < depth - 1e-6]
@@ -236,6 +265,7 @@ def build_model(design: Design) -> BuiltModel:
     lines = [_row_line(r, head_y, piles.length) for r in rows]
     wt = design.soil.water_table
     mesh = layered_domain(width, depth, layer_depths, cap=poly, lines=lines,
+                          x_min=0.0 if axisym else None,
                           extra_depths=[wt] if 0 < wt < depth else [], h=far * cap.diameter,
                           h_near=h_near, refine_radius=4 * h_near + 2.0, element=an.element)
     split_nodes = np.zeros(0, dtype=np.int64)
@@ -246,7 +276,7 @@ def build_model(design: Design) -> BuiltModel:
     elif cap.contact != "bonded":
         raise DesignError(f"cap.contact {cap.contact!r} is not none, bonded or frictional")
 
-    model = Model(mesh)
+    model = Model(mesh, an.geometry)
     tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])
     for k, ly in enumerate(design.soil.layers, start=1):
         name = f"layer_{k}"
@@ -260,13 +290,20 @@ def build_model(design: Design) -> BuiltModel:
     cons.fix_nodes(mesh.nodes_of("left"), (0,))
     cons.fix_nodes(mesh.nodes_of("right"), (0,))
     cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    if axisym and split_nodes.size:  # copies of split nodes on the axis keep u_r = 0 too
+        copies = new_index[split_nodes]
+        cons.fix_nodes(copies[np.abs(mesh.points[copies, 0]) < 1e-9], (0,))
     # tower base: pedestal-top nodes tied rigidly to the reference point
     cap_nodes = np.unique(mesh.cells[mesh.cell_sets["cap"]])
     tol = 1e-6 * cap.diameter
     top_nodes = cap_nodes[(np.abs(mesh.points[cap_nodes, 1] - ped_top) < tol)
                           & (np.abs(mesh.points[cap_nodes, 0]) <= cap.pedestal_diameter / 2
                              + tol)]
-    cons.tie_rigid(top_nodes, "ref")
+    if axisym:  # vertical motion only; the axis keeps u_r = 0
+        cons.tie_rigid(top_nodes, "ref", (1,))
+        cons.fix([model.dofmap.ref_dof("ref", 0), model.dofmap.ref_dof("ref", 2)], 0.0)
+    else:
+        cons.tie_rigid(top_nodes, "ref")
 
     pile_rows = []
     for k, row in enumerate(rows, start=1):

@@ -98,11 +98,12 @@ class Piles:
 @dataclass(frozen=True)
 class Loading:
     vertical: float  # kN (turbine, at the tower base, compression positive)
-    control: str = "lever"  # rotation | lever
+    control: str = "lever"  # rotation | lever | settlement (axisymmetric, vertical only)
     lever_arm: float | None = None  # m (= M/H of the load case), for control = lever
     horizontal: float = 0.0  # kN held during a rotation-controlled pushover
     rotation_max: float = 0.01  # rad
     initial_increment: float = 2e-6  # rad (first rotation increment, < 1e-5)
+    settlement_max: float = 0.1  # m, for control = settlement
 
 
 @dataclass(frozen=True)

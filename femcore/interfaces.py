@@ -67,12 +67,11 @@ class SpringBlock:
     def initial_state(self) -> SpringState:
         return SpringState.zeros(self.k.shape)
 
-    def evaluate(self, u_e: NDArray[np.float64], state: SpringState, tangent: bool = True):
+    def evaluate(self, u_e: NDArray[np.float64], state: SpringState):
         d = np.einsum("nki,ni->nk", self.B, u_e)  # (n, 2)
         f, k_tan, trial = epp_update(d, state, self.k, self.f_min, self.f_max)
         f_e = np.einsum("nki,nk->ni", self.B, f)
-        K_e = np.einsum("nki,nk,nkj->nij", self.B, k_tan, self.B) if tangent else None
-        return f_e, K_e, trial
+        return f_e, lambda: np.einsum("nki,nk,nkj->nij", self.B, k_tan, self.B), trial
 
 
 def contact_pairs(mesh: Mesh, edges: NDArray[np.int64], new_index: NDArray[np.int64],
@@ -155,11 +154,10 @@ class ContactBlock:
     def initial_state(self) -> ContactState:
         return ContactState.zeros(self.weight.size)
 
-    def evaluate(self, u_e: NDArray[np.float64], state: ContactState, tangent: bool = True):
+    def evaluate(self, u_e: NDArray[np.float64], state: ContactState):
         d = np.einsum("mki,mi->mk", self.B, u_e)  # (m, 2) slip, opening
         tr, C, trial = coulomb_update(d, state, self.k_s, self.k_n, self.cohesion,
                                       self.tan_delta, self.tension_cutoff)
         f_e = np.einsum("mki,mk,m->mi", self.B, tr, self.weight)
-        K_e = (np.einsum("mki,mkl,mlj,m->mij", self.B, C, self.B, self.weight)
-               if tangent else None)
-        return f_e, K_e, trial
+        return (f_e, lambda: np.einsum("mki,mkl,mlj,m->mij", self.B, C, self.B, self.weight),
+                trial)

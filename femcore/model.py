@@ -55,12 +55,13 @@ class SolidBlock:
     def initial_state(self) -> State:
         return self.material.initial_state(self.geom.x)
 
-    def evaluate(self, u_e: NDArray[np.float64], state: State, tangent: bool = True):
-        """Element forces ``(c, i)``, tangents ``(c, i, i)`` and the trial state."""
+    def evaluate(self, u_e: NDArray[np.float64], state: State):
+        """Element forces ``(c, i)``, a function giving the tangents ``(c, i, i)``, the trial
+        state. (All blocks share this interface; tangents are built only when asked for.)"""
         strain = element_strain(self.geom, u_e)  # (c, q, 4)
         stress, D, trial = self.material.update(strain, state)
         f_e = element_internal_force(self.geom, stress)
-        return f_e, (element_stiffness(self.geom, D) if tangent else None), trial
+        return f_e, lambda: element_stiffness(self.geom, D), trial
 
 
 @dataclass
@@ -146,21 +147,27 @@ class Model:
     def evaluate(
         self, u: NDArray[np.float64], states: list[State], tangent: bool = True
     ) -> tuple[NDArray[np.float64], sp.csr_matrix | None, list[State]]:
-        """Internal force, tangent (CSR, shared pattern) and trial states at displacement ``u``."""
+        """Internal force, tangent (CSR, shared pattern) and trial states at displacement ``u``.
+
+        ``tangent``: True builds the tangent, False skips it, ``"deferred"`` returns a function
+        that builds it on demand (Newton needs no tangent once it has converged).
+        """
         f_int = np.zeros(self.n_dofs)
-        k_blocks = []
+        makers = []
         trial = []
         for b, st in zip(self.blocks, states, strict=True):
-            f_e, K_e, new_state = b.evaluate(u[b.element_dofs], st, tangent)
+            f_e, make_K, new_state = b.evaluate(u[b.element_dofs], st)
             f_int += assemble_vector(self.n_dofs, b.element_dofs, f_e)
-            if tangent:
-                k_blocks.append(K_e)
+            makers.append(make_K)
             trial.append(new_state)
-        K = None
-        if tangent:
-            n_extra = self.n_dofs - 2 * self.mesh.n_nodes
-            K = self.pattern.assemble([*k_blocks, np.zeros(n_extra)])
-        return f_int, K, trial
+        n_extra = self.n_dofs - 2 * self.mesh.n_nodes
+
+        def assemble_tangent():
+            return self.pattern.assemble([*(m() for m in makers), np.zeros(n_extra)])
+
+        if tangent == "deferred":
+            return f_int, assemble_tangent, trial
+        return f_int, (assemble_tangent() if tangent else None), trial
 
     def solve_linear(
         self, cmap: ConstraintMap, f_ext: NDArray[np.float64], states: list[State] | None = None,

@@ -55,7 +55,8 @@ def newton(
     Parameters
     ----------
     residual : callable
-        ``x -> (r, K, scale, payload)``: residual vector, its tangent dr/dx (sparse), the force
+        ``x -> (r, K, scale, payload)``: residual vector, its tangent dr/dx (sparse, or a
+        function returning it: built only if an iteration needs it), the force
         scale for the relative criterion and anything the caller wants back (e.g. trial states).
     x0 : initial guess (not modified).
     rtol : relative tolerance on ``||r|| / scale``.
@@ -76,7 +77,7 @@ def newton(
         if it == max_iter:
             break
         try:
-            x = x - solve(K, r, backend)
+            x = x - solve(K() if callable(K) else K, r, backend)
         except SolverError as exc:
             raise ConvergenceError(f"linear solve failed at iteration {it + 1}: {exc}",
                                    history) from exc

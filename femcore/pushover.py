@@ -103,11 +103,11 @@ def residual_callback(model: Model, cmap: ConstraintMap, f_ext: NDArray[np.float
 
     def residual(u_free):
         u = cmap.expand(u_free)
-        f_int, K, trial = model.evaluate(u, states)
+        f_int, make_K, trial = model.evaluate(u, states, tangent="deferred")
         r_full = f_int - f_ext
         generalized = cmap.generalized(r_full)
         scale = max(f_ext_red, float(np.linalg.norm(generalized[cmap.fixed])))
-        return (cmap.reduce_vector(r_full), cmap.reduce_matrix(K), scale,
+        return (cmap.reduce_vector(r_full), lambda: cmap.reduce_matrix(make_K()), scale,
                 (u, trial, generalized))
 
     return residual

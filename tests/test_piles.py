@@ -273,3 +273,23 @@ def test_demo_continuum_sanity(demo_continuum, demo_springs):
     assert all(rec.history[-1] <= 1e-6 for rec in r.pushover.records)
     assert r.curve["rotation"][-1] >= 0.005 * (1 - 1e-9)
     assert r.requirements["static_stiffness"]["value"] > 0
+
+
+def test_axisymmetric_vertical_capacity_bounded_by_pile_resistances():
+    """Axisymmetric smeared rings, cap without contact: the vertical load on the piled cap can
+    never exceed the sum of the shaft and tip resistances of all piles (every load path runs
+    through the interface springs) [D], and the response starts stiff and positive."""
+    from dataclasses import replace
+
+    from femcore.design import Analysis, Loading
+
+    d = demo_design()
+    d = replace(d, analysis=Analysis(geometry="axisymmetric", mesh="coarse", element="T6"),
+                loading=Loading(vertical=8400.0, control="settlement", settlement_max=0.1))
+    r = run_design(d)
+    assert r.status in ("ok", "censored"), r.message
+    total = sum(pr.springs.f_max[:, 0].sum() + pr.tip.f_max[0, 0] for pr in r.built.rows)
+    V = r.curve["vertical"]
+    assert V.max() <= total * (1 + 1e-6)
+    assert np.all(np.diff(V) > 0)
+    assert r.keypoints["vertical_stiffness"].value > 0
