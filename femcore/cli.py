@@ -1,13 +1,18 @@
-"""The ``tiltfe`` command.
+"""The ``tiltfe`` command (``python -m femcore`` is the same).
 
-Sub-commands arrive with the analyses they drive; this module keeps start-up fast by
-importing numerical packages only inside the commands that need them.
+Exit codes: 0 success; 1 analysis failed (diverged; status recorded in the results);
+2 bad input (one message per problem naming the field, the value and the allowed range).
+Numerical packages, gmsh and matplotlib are imported inside the commands, so ``--help``
+starts fast.
 """
 
 from __future__ import annotations
 
 import argparse
+import json
 import sys
+import time
+from pathlib import Path
 
 CAUTION = (
     "Caution: indicative results of a simplified 2D model with idealised soil behaviour; not a "
@@ -15,6 +20,25 @@ CAUTION = (
     "specification, IEC 61400-6, the applicable national codes (e.g. EN 1997-1 with its national "
     "annex, EN 1992-1-1) and be carried out or checked by a qualified, licensed engineer."
 )
+
+EXIT_OK, EXIT_FAILED, EXIT_INPUT = 0, 1, 2
+
+
+class InputProblem(Exception):
+    """A user mistake: reported without a traceback, exit code 2."""
+
+
+def _load(path: str, element: str | None = None, mesh: str | None = None):
+    from .design import DesignError, load_design
+
+    try:
+        design = load_design(path)
+    except DesignError as exc:
+        raise InputProblem("\n".join(exc.problems)) from None
+    over = {k: v for k, v in (("element", element), ("mesh", mesh)) if v}
+    if over:
+        design = design.model_copy(update={"analysis": design.analysis.model_copy(update=over)})
+    return design
 
 
 def _cmd_info(args: argparse.Namespace) -> int:
@@ -38,7 +62,153 @@ def _cmd_info(args: argparse.Namespace) -> int:
     print(f"linear solver backends: {', '.join(available_backends())}")
     print()
     print(CAUTION)
-    return 0
+    return EXIT_OK
+
+
+def _cmd_schema(args: argparse.Namespace) -> int:
+    from .design import Design
+
+    print(json.dumps(Design.model_json_schema(), indent=1))
+    return EXIT_OK
+
+
+def _summary_rows(design, built) -> list[str]:
+    rows = [f"design        {design.name}",
+            f"analysis      {design.analysis.geometry}, {design.analysis.support} support, "
+            f"{design.analysis.element}, mesh {design.analysis.mesh}",
+            f"soil          {len(design.soil.layers)} layers, water table "
+            f"{design.soil.water_table:g} m",
+            f"cap           D = {design.cap.diameter:g} m, contact {design.cap.contact}",
+            f"piles         {sum(r.count for r in design.piles.rings)} piles in "
+            f"{len(design.piles.rings)} rings -> {len(built.rows)} rows",
+            f"slice length  L = {built.slice_length:.3f} m "
+            + ("(16 R / 3 pi)" if design.analysis.slice_length is None else "(given)"),
+            f"model         {built.model.mesh.n_nodes} nodes, {built.model.n_dofs} DOFs"]
+    for pr in built.rows:
+        rows.append(f"  row x = {pr.row.x:7.3f} m   n = {pr.row.count:4.1f}   "
+                    f"rake {pr.row.rake:.4f}")
+    return rows
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    from .build import build_model
+    from .design import DesignError
+
+    design = _load(args.design)
+    try:
+        built = build_model(design)
+    except DesignError as exc:
+        raise InputProblem("\n".join(exc.problems)) from None
+    print(f"{args.design}: valid")
+    print("\n".join(_summary_rows(design, built)))
+    return EXIT_OK
+
+
+def _print_summary(result, dynamic, out: Path, t_total: float) -> None:
+    print()
+    print(f"status        {result.status}  ({result.message})")
+    print("key points (3D estimates)")
+    for kp in result.keypoints.values():
+        if kp.value is None:
+            continue
+        if kp.unit == "kNm/rad":
+            val = f"{kp.value / 1e6:10.3f} GNm/rad"
+        elif kp.unit == "kNm":
+            val = f"{kp.value / 1e3:10.2f} MNm    "
+        else:
+            val = f"{kp.value:10.4g} {kp.unit:7s}"
+        print(f"  {kp.name:28s} {val}  {kp.method}")
+    if dynamic is not None:
+        v = dynamic.get("value")
+        print(f"  {'dynamic_stiffness':28s} "
+              + (f"{v / 1e6:10.3f} GNm/rad  {dynamic['moduli']}" if v
+                 else f"{'-':>10s}          {dynamic.get('reason')}"))
+    if result.requirements:
+        print("requirement checks")
+        for name, chk in result.requirements.items():
+            verdict = {True: "PASS", False: "FAIL", None: "n/a "}[chk.get("passed")]
+            margin = chk.get("margin")
+            print(f"  {name:28s} {verdict}" +
+                  ("" if margin is None else f"   margin {100 * margin:+7.1f} %"))
+    print(f"timings       {t_total:.1f} s total (pushover {result.timings.get('pushover_s', 0):.1f}"
+          f" s, {result.timings.get('increments', 0)} increments, "
+          f"{result.timings.get('iterations', 0)} Newton iterations)")
+    print(f"results       {out}/")
+    print()
+    print(CAUTION)
+
+
+def _cmd_run(args: argparse.Namespace) -> int:
+    from .analysis import run_built
+    from .build import build_model
+    from .design import DesignError
+    from .dynamic import dynamic_stiffness
+    from .report import write_report
+    from .results import write_curve_csv, write_fields, write_result_json
+
+    t0 = time.perf_counter()
+    design = _load(args.design, args.element, args.mesh)
+    out = Path(args.out or Path(args.design).with_suffix("").name + "-results")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputProblem(f"--out {out}: cannot create the folder ({exc.strerror})") from None
+    t_build = time.perf_counter()
+    try:
+        built = build_model(design)
+    except DesignError as exc:
+        raise InputProblem("\n".join(exc.problems)) from None
+    built.meta["build_s"] = time.perf_counter() - t_build
+    vertical = design.loading.control == "settlement"
+    if not args.quiet:
+        print("\n".join(_summary_rows(design, built)))
+        print(f"{'settlement (mm)' if vertical else 'rotation (mrad)':>16s} "
+              f"{'V (MN)' if vertical else 'moment (MNm)':>13s} {'iterations':>10s}")
+
+    def progress(rec):
+        if not args.quiet and rec.monitor.size:
+            first = -rec.monitor[-1] if vertical else rec.monitor[-1]
+            print(f"{first * 1e3:16.4f} {_moment(rec, built) / 1e3:13.2f} "
+                  f"{rec.iterations:10d}", flush=True)
+
+    result = run_built(built, progress=progress)
+    dynamic = None
+    if design.analysis.geometry == "plane_strain":
+        dynamic = dynamic_stiffness(design)
+        req = design.requirements
+        if req.dynamic_stiffness_min is not None and dynamic.get("value") is not None:
+            result.requirements["dynamic_stiffness"] = {
+                "required": req.dynamic_stiffness_min, "value": dynamic["value"],
+                "at_moment": req.dynamic_stiffness_moment, "moduli": dynamic["moduli"],
+                "passed": bool(dynamic["value"] >= req.dynamic_stiffness_min),
+                "margin": dynamic["value"] / req.dynamic_stiffness_min - 1}
+        if "static_stiffness" in result.requirements:
+            result.requirements["static_stiffness"]["moduli"] = \
+                "operational E of each layer (pushover)"
+    t_analysis = time.perf_counter() - t0
+    write_result_json(result, out / "result.json", {"dynamic": dynamic})
+    if result.curve:
+        write_curve_csv(result, out / "curve.csv")
+    write_fields(result, out / "fields.vtu")
+    write_report(result, out, dynamic)
+    t_total = time.perf_counter() - t0
+    result.timings["outputs_s"] = t_total - t_analysis
+    write_result_json(result, out / "result.json", {"dynamic": dynamic})
+    if not args.quiet:
+        _print_summary(result, dynamic, out, t_total)
+    else:
+        print(f"{design.name}: {result.status}; results in {out}/")
+    return EXIT_FAILED if result.status == "diverged" else EXIT_OK
+
+
+def _moment(rec, built) -> float:
+    """3D-estimate moment of a pushover record (for progress lines)."""
+    loading = built.design.loading
+    if loading.control == "settlement":
+        return -float(rec.force[0]) if rec.force.size else 0.0
+    h = built.ref_xy[1] - built.pedestal_top
+    m2d = rec.force[0] if loading.control == "rotation" else rec.force[0] * h
+    return float(m2d * built.slice_length)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -52,8 +222,21 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"tiltfe {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    p_info = sub.add_parser("info", help="versions, solver backends and the caution text")
-    p_info.set_defaults(func=_cmd_info)
+    p = sub.add_parser("run", help="analyse one design file and write results and a report")
+    p.add_argument("design", help="design file (TOML)")
+    p.add_argument("--out", help="output folder (default: <design>-results)")
+    p.add_argument("--element", choices=["T6", "T15"], help="override analysis.element")
+    p.add_argument("--mesh", choices=["coarse", "standard", "fine"],
+                   help="override analysis.mesh")
+    p.add_argument("--quiet", action="store_true", help="no progress lines or summary table")
+    p.set_defaults(func=_cmd_run)
+    p = sub.add_parser("check", help="validate a design file and print the derived model")
+    p.add_argument("design", help="design file (TOML)")
+    p.set_defaults(func=_cmd_check)
+    p = sub.add_parser("schema", help="print the JSON Schema of the design file")
+    p.set_defaults(func=_cmd_schema)
+    p = sub.add_parser("info", help="versions, solver backends and the caution text")
+    p.set_defaults(func=_cmd_info)
     return parser
 
 
@@ -62,8 +245,14 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(argv)
     if not getattr(args, "func", None):
         parser.print_help()
-        return 0
-    return int(args.func(args))
+        return EXIT_OK
+    try:
+        return int(args.func(args))
+    except InputProblem as exc:
+        print(f"tiltfe {args.command}: invalid input", file=sys.stderr)
+        for line in str(exc).splitlines():
+            print(f"  {line}", file=sys.stderr)
+        return EXIT_INPUT
 
 
 if __name__ == "__main__":

@@ -1,202 +1,332 @@
-"""The design: what the engineer describes (soil, cap, piles, loads, requirements).
+"""The design file: what the engineer describes (soil, cap, piles, loads, requirements).
 
-Plain frozen dataclasses with units in every field comment; :func:`design_from_dict` builds a
-design from nested dicts (the TOML file format and its schema validation build on this).
-Units: kN, m, kPa, kN/m^3, degrees for friction and dilation angles, radians for rotations.
+One pydantic schema validates TOML input, exports a JSON Schema with units in every
+description (``tiltfe schema``) and is the object the analysis reads. Units: kN, m, kPa,
+kN/m^3, degrees for friction and dilation angles, radians for rotations.
+
+Bad input raises :class:`DesignError` with one line per problem: the field path, the value
+and the allowed range.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, fields, is_dataclass
-from typing import Any
+import math
+import sys
+from pathlib import Path
+from typing import Annotated, Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 __all__ = ["Analysis", "SoilLayer", "Soil", "Cap", "PileRing", "Piles", "Loading",
-           "Requirements", "Keypoints", "Design", "design_from_dict", "DesignError",
-           "demo_design"]
+           "Requirements", "Keypoints", "Design", "design_from_dict", "load_design",
+           "DesignError", "demo_design", "SCHEMA_VERSION"]
+
+SCHEMA_VERSION = "1"
+
+Pos = Annotated[float, Field(gt=0, allow_inf_nan=False)]
+NonNeg = Annotated[float, Field(ge=0, allow_inf_nan=False)]
 
 
 class DesignError(ValueError):
-    """A design value is missing, out of range or inconsistent."""
+    """A design value is missing, out of range or inconsistent. ``problems`` lists them."""
+
+    def __init__(self, problems: list[str] | str) -> None:
+        self.problems = [problems] if isinstance(problems, str) else list(problems)
+        super().__init__("\n".join(self.problems))
 
 
-@dataclass(frozen=True)
-class Analysis:
-    geometry: str = "plane_strain"  # plane_strain | axisymmetric (vertical loading only)
-    element: str = "T15"  # T6 | T15
-    mesh: str = "standard"  # coarse | standard | fine
-    support: str = "continuum"  # continuum | springs
-    slice_length: float | None = None  # m; default 16 R / (3 pi)
-    row_merge: float = 1.0  # m; projected rows closer than this are merged
-    domain_factor: float = 2.0  # lateral extent beyond the cap edge, in cap diameters
+class _Model(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, validate_default=True)
 
 
-@dataclass(frozen=True)
-class SoilLayer:
-    name: str
-    thickness: float  # m
-    model: str  # tresca | mohr_coulomb | elastic
-    gamma: float  # kN/m^3 above the water table
-    gamma_sat: float | None = None  # kN/m^3 below it (default gamma)
-    E: float | None = None  # kPa (undrained E_u for tresca); default 200 s_u for tresca
-    E_gradient: float = 0.0  # kPa/m
-    nu: float | None = None  # default 0.49 (tresca), 0.3 otherwise
-    su: float | None = None  # kPa at the layer top (tresca)
-    su_gradient: float = 0.0  # kPa/m
-    c: float = 0.0  # kPa (mohr_coulomb)
-    phi: float = 0.0  # degrees
-    psi: float = 0.0  # degrees
-    K0: float | None = None  # default 1 - sin(phi) (drained) or 0.7 (undrained)
-    G0: float | None = None  # kPa, small-strain shear modulus (dynamic stiffness)
+class Analysis(_Model):
+    """How the design is analysed."""
+
+    geometry: Literal["plane_strain", "axisymmetric"] = Field(
+        "plane_strain", description="plane_strain (moment) or axisymmetric (vertical only)")
+    element: Literal["T6", "T15"] = Field(
+        "T15", description="triangle: T15 (accurate collapse loads) or T6 (fast)")
+    mesh: Literal["coarse", "standard", "fine"] = Field(
+        "standard", description="element size near piles and cap: 3.0 / 1.6 / 1.0 m")
+    support: Literal["continuum", "springs"] = Field(
+        "continuum", description="soil continuum with embedded piles, or springs only "
+        "(subgrade reaction, rigid cap)")
+    slice_length: Pos | None = Field(
+        None, description="out-of-plane length L of the plane-strain slice, m; default "
+        "16 R / (3 pi)")
+    row_merge: Pos = Field(1.0, description="projected pile rows closer than this merge, m")
+    domain_factor: float = Field(2.0, ge=1.0, le=6.0,
+                                 description="soil beyond the cap edge, in cap diameters")
+
+
+class SoilLayer(_Model):
+    """A horizontal soil layer (top to bottom in the file)."""
+
+    name: str = Field(description="layer name (free text)")
+    thickness: Pos = Field(description="layer thickness, m")
+    model: Literal["tresca", "mohr_coulomb", "elastic"] = Field(
+        description="tresca (undrained, total stress), mohr_coulomb (drained, effective "
+        "stress) or elastic")
+    gamma: float = Field(gt=0, le=30, description="unit weight above the water table, kN/m3")
+    gamma_sat: float | None = Field(None, gt=0, le=30,
+                                    description="unit weight below the water table, kN/m3")
+    E: Pos | None = Field(None, description="Young's modulus at the layer top, kPa (undrained "
+                          "E_u for tresca; default 200 s_u)")
+    E_gradient: NonNeg = Field(0.0, description="increase of E with depth, kPa/m")
+    nu: float | None = Field(None, ge=0.0, lt=0.5,
+                             description="Poisson's ratio (default 0.49 tresca, 0.3 otherwise)")
+    su: Pos | None = Field(None, description="undrained shear strength at the layer top, kPa")
+    su_gradient: NonNeg = Field(0.0, description="increase of s_u with depth, kPa/m")
+    c: NonNeg = Field(0.0, description="effective cohesion, kPa (mohr_coulomb)")
+    phi: float = Field(0.0, ge=0.0, le=50.0, description="friction angle, degrees")
+    psi: float = Field(0.0, ge=0.0, le=50.0, description="dilation angle, degrees (<= phi)")
+    K0: float | None = Field(None, gt=0.0, le=3.0, description="earth pressure at rest "
+                             "(default 1 - sin(phi) drained, 0.7 undrained)")
+    G0: Pos | None = Field(None, description="small-strain shear modulus, kPa (dynamic "
+                           "stiffness)")
 
     @property
     def undrained(self) -> bool:
         return self.model == "tresca"
 
-
-@dataclass(frozen=True)
-class Soil:
-    layers: tuple[SoilLayer, ...]
-    water_table: float = 1e9  # m below ground
-
-
-@dataclass(frozen=True)
-class Cap:
-    diameter: float  # m
-    underside_depth: float  # m below ground
-    edge_thickness: float  # m
-    centre_thickness: float  # m
-    pedestal_diameter: float  # m
-    pedestal_height: float = 0.0  # m above the cap top at the centre
-    E: float = 3.3e7  # kPa
-    nu: float = 0.2
-    gamma: float = 25.0  # kN/m^3
-    contact: str = "none"  # none | bonded | frictional
+    @model_validator(mode="after")
+    def _check(self) -> SoilLayer:
+        if self.model == "tresca" and self.su is None:
+            raise ValueError("model = 'tresca' needs su (kPa, > 0)")
+        if self.model != "tresca" and self.E is None:
+            raise ValueError(f"model = {self.model!r} needs E (kPa, > 0)")
+        if self.psi > self.phi:
+            raise ValueError(f"psi = {self.psi} exceeds phi = {self.phi}: need psi <= phi")
+        if self.model == "mohr_coulomb" and self.phi == 0 and self.c == 0:
+            raise ValueError("mohr_coulomb with phi = 0 and c = 0 has no strength: give phi "
+                             "(degrees, 0-50) or c (kPa)")
+        return self
 
 
-@dataclass(frozen=True)
-class PileRing:
-    radius: float  # m
-    count: int
-    rake: float = 0.0  # horizontal per vertical, outward (1/6 for 1:6)
-    angle_offset: float = 0.0  # degrees
+class Soil(_Model):
+    layers: list[SoilLayer] = Field(min_length=1, description="layers from the ground down")
+    water_table: NonNeg = Field(1e9, description="depth of the water table below ground, m")
 
 
-@dataclass(frozen=True)
-class Piles:
-    width: float  # m (side of a square pile, or diameter)
-    length: float  # m along the pile axis
-    rings: tuple[PileRing, ...]
-    shape: str = "square"  # square | circular
-    E: float = 3.5e7  # kPa
-    head: str = "fixed"  # fixed | pinned
-    alpha: float | None = None  # shaft adhesion factor in clay (default API alpha(psi))
-    beta: float | None = None  # shaft friction factor in sand (default tan(phi - 5))
-    lateral_factor: float = 9.0  # N_p for clay
-    interface_factor: float = 10.0  # continuum only: interface springs x this (see build.py)
+class Cap(_Model):
+    """Circular concrete cap (its section through the centre in plane strain)."""
+
+    diameter: float = Field(gt=2.0, le=60.0, description="cap diameter, m")
+    underside_depth: float = Field(gt=0.0, le=10.0, description="depth of the underside "
+                                   "below ground, m")
+    edge_thickness: Pos = Field(description="thickness at the edge, m")
+    centre_thickness: Pos = Field(description="thickness at the centre (pedestal edge), m")
+    pedestal_diameter: Pos = Field(description="pedestal diameter, m")
+    pedestal_height: NonNeg = Field(0.0, description="pedestal height above the cap top, m")
+    E: float = Field(3.3e7, gt=1e6, le=1e8, description="concrete Young's modulus, kPa")
+    nu: float = Field(0.2, ge=0.0, lt=0.5, description="concrete Poisson's ratio")
+    gamma: float = Field(25.0, gt=0.0, le=30.0, description="concrete unit weight, kN/m3")
+    contact: Literal["none", "bonded", "frictional"] = Field(
+        "none", description="cap underside on soil: none (no bearing credit), bonded, or "
+        "frictional (Coulomb, no tension: lift-off)")
+
+    @model_validator(mode="after")
+    def _check(self) -> Cap:
+        if self.edge_thickness > self.centre_thickness:
+            raise ValueError(f"edge_thickness = {self.edge_thickness} m exceeds "
+                             f"centre_thickness = {self.centre_thickness} m")
+        if self.pedestal_diameter >= self.diameter:
+            raise ValueError(f"pedestal_diameter = {self.pedestal_diameter} m must be smaller "
+                             f"than diameter = {self.diameter} m")
+        return self
 
 
-@dataclass(frozen=True)
-class Loading:
-    vertical: float  # kN (turbine, at the tower base, compression positive)
-    control: str = "lever"  # rotation | lever | settlement (axisymmetric, vertical only)
-    lever_arm: float | None = None  # m (= M/H of the load case), for control = lever
-    horizontal: float = 0.0  # kN held during a rotation-controlled pushover
-    rotation_max: float = 0.01  # rad
-    initial_increment: float = 2e-6  # rad (first rotation increment, < 1e-5)
-    settlement_max: float = 0.1  # m, for control = settlement
+class PileRing(_Model):
+    radius: Pos = Field(description="ring radius, m")
+    count: int = Field(ge=1, le=200, description="number of piles in the ring")
+    rake: float = Field(0.0, ge=0.0, le=0.34, description="outward rake, horizontal per "
+                        "vertical (1/6 for 1:6; at most about 1:3)")
+    angle_offset: float = Field(0.0, ge=-180.0, le=360.0,
+                                description="angle of the first pile from the +x axis, degrees")
 
 
-@dataclass(frozen=True)
-class Requirements:
-    static_stiffness_min: float | None = None  # kNm/rad
-    static_stiffness_moment: float | None = None  # kNm at which the secant is checked
-    dynamic_stiffness_min: float | None = None  # kNm/rad (small-strain moduli)
-    dynamic_stiffness_moment: float | None = None  # kNm
-    design_moment: float | None = None  # kNm (factored)
-    resistance_factor: float = 1.0  # capacity divided by this must exceed the design moment
-    no_tension_moment: float | None = None  # kNm up to which no pile may be in tension
+class Piles(_Model):
+    width: float = Field(gt=0.1, le=3.0, description="pile width (square side or diameter), m")
+    length: float = Field(gt=2.0, le=80.0, description="pile length along its axis, m")
+    rings: list[PileRing] = Field(min_length=1, description="ring layout")
+    shape: Literal["square", "circular"] = Field("square", description="cross-section shape")
+    E: float = Field(3.5e7, gt=1e6, le=3e8, description="pile Young's modulus, kPa")
+    head: Literal["fixed", "pinned"] = Field("fixed", description="connection to the cap")
+    alpha: float | None = Field(None, gt=0.0, le=1.5,
+                                description="shaft adhesion factor in clay (default API)")
+    beta: float | None = Field(None, gt=0.0, le=2.0,
+                               description="shaft friction factor in sand (default "
+                               "tan(phi - 5))")
+    lateral_factor: float = Field(9.0, ge=1.0, le=15.0, description="N_p for clay (Broms: 9)")
+    interface_factor: float = Field(10.0, ge=1.0, le=1000.0,
+                                    description="continuum only: interface spring stiffness "
+                                    "multiplier (see the manual)")
 
 
-@dataclass(frozen=True)
-class Keypoints:
-    rotations: tuple[float, ...] = (0.001, 0.003, 0.005)  # rad
-    moments: tuple[float, ...] = ()  # kNm for secant stiffness
+class Loading(_Model):
+    vertical: NonNeg = Field(description="vertical turbine load at the tower base, kN")
+    control: Literal["rotation", "lever", "settlement"] = Field(
+        "lever", description="pushover control: rotation, lever (H = M/h), or settlement "
+        "(axisymmetric)")
+    lever_arm: Pos | None = Field(None, description="h = M/H of the load case, m (lever)")
+    horizontal: float = Field(0.0, description="horizontal load held under rotation control, "
+                              "kN")
+    rotation_max: float = Field(0.01, gt=1e-4, le=0.1, description="target rotation, rad")
+    initial_increment: float = Field(2e-6, gt=1e-9, lt=1e-5,
+                                     description="first rotation increment, rad (< 1e-5)")
+    settlement_max: float = Field(0.1, gt=0.0, le=2.0,
+                                  description="target settlement (control = settlement), m")
+
+    @model_validator(mode="after")
+    def _check(self) -> Loading:
+        if self.control == "lever" and self.lever_arm is None:
+            raise ValueError("control = 'lever' needs lever_arm (m, > 0)")
+        return self
 
 
-@dataclass(frozen=True)
-class Design:
-    name: str
+class Requirements(_Model):
+    static_stiffness_min: Pos | None = Field(None, description="minimum static rotational "
+                                             "stiffness, kNm/rad")
+    static_stiffness_moment: Pos | None = Field(None, description="moment at which the static "
+                                                "secant stiffness is checked, kNm")
+    dynamic_stiffness_min: Pos | None = Field(None, description="minimum dynamic rotational "
+                                              "stiffness (small-strain moduli), kNm/rad")
+    dynamic_stiffness_moment: Pos | None = Field(None, description="moment of the dynamic "
+                                                 "check (operational), kNm")
+    design_moment: Pos | None = Field(None, description="factored design moment, kNm")
+    resistance_factor: float = Field(1.0, ge=1.0, le=3.0, description="capacity is divided "
+                                     "by this before the comparison")
+    no_tension_moment: Pos | None = Field(None, description="moment up to which no pile may "
+                                          "be in tension, kNm")
+
+
+class Keypoints(_Model):
+    rotations: list[Annotated[float, Field(gt=0, le=0.1)]] = Field(
+        [0.001, 0.003, 0.005], description="rotations for 'moment at', rad")
+    moments: list[Pos] = Field([], description="moments for secant stiffness, kNm")
+
+
+class Design(_Model):
+    """A piled wind-turbine foundation and its load case."""
+
+    name: str = Field(description="design name (free text)")
     soil: Soil
     cap: Cap
     piles: Piles
     loading: Loading
-    analysis: Analysis = field(default_factory=Analysis)
-    requirements: Requirements = field(default_factory=Requirements)
-    keypoints: Keypoints = field(default_factory=Keypoints)
+    analysis: Analysis = Field(default_factory=Analysis)
+    requirements: Requirements = Field(default_factory=Requirements)
+    keypoints: Keypoints = Field(default_factory=Keypoints)
+
+    @model_validator(mode="after")
+    def _geometry(self) -> Design:
+        problems = []
+        R = self.cap.diameter / 2
+        w = self.piles.width
+        for i, ring in enumerate(self.piles.rings):
+            if ring.radius + w / 2 > R:
+                problems.append(f"piles.rings.{i}.radius = {ring.radius} m: the piles must lie "
+                                f"inside the cap (radius + width/2 <= {R} m)")
+            spacing = 2 * math.pi * ring.radius / ring.count
+            if ring.count > 1 and spacing < 2 * w:
+                problems.append(f"piles.rings.{i}.count = {ring.count}: pile spacing "
+                                f"{spacing:.2f} m is below 2 widths ({2 * w:.2f} m)")
+        radii = sorted(r.radius for r in self.piles.rings)
+        for a, b in zip(radii, radii[1:], strict=False):
+            if b - a < 2 * w:
+                problems.append(f"piles.rings: radii {a} m and {b} m overlap (need at least "
+                                f"2 pile widths = {2 * w:.2f} m between rings)")
+        max_rake = max(r.rake for r in self.piles.rings)
+        tip = self.cap.underside_depth + self.piles.length / math.sqrt(1 + max_rake**2)
+        total = sum(ly.thickness for ly in self.soil.layers)
+        needed = tip + (self.cap.diameter if self.analysis.support == "continuum" else 0.0)
+        if total < needed:
+            problems.append(f"soil.layers: total thickness {total:.2f} m must reach "
+                            f"{needed:.2f} m (pile tips + one cap diameter); thicken the "
+                            "last layer")
+        if self.cap.centre_thickness > self.cap.underside_depth + 3.0:
+            problems.append(f"cap.centre_thickness = {self.cap.centre_thickness} m: the cap top "
+                            "may stand at most 3 m above ground (use pedestal_height)")
+        if self.analysis.geometry == "axisymmetric" and self.loading.control != "settlement":
+            problems.append("loading.control must be 'settlement' for axisymmetric analyses")
+        if self.loading.control == "settlement" and self.analysis.geometry != "axisymmetric":
+            problems.append("loading.control = 'settlement' needs analysis.geometry = "
+                            "'axisymmetric'")
+        if problems:
+            raise ValueError("; ".join(problems))
+        return self
 
 
-def _build(cls, data: Any, path: str):
-    if is_dataclass(data):
-        return data
-    if not isinstance(data, dict):
-        raise DesignError(f"{path}: expected a table, got {type(data).__name__}")
-    names = {f.name: f for f in fields(cls)}
-    unknown = set(data) - set(names)
-    if unknown:
-        raise DesignError(f"{path}: unknown key(s) {sorted(unknown)}; allowed: {sorted(names)}")
-    kwargs = {}
-    for key, value in data.items():
-        sub = _NESTED.get((cls, key))
-        if sub is None:
-            kwargs[key] = tuple(value) if isinstance(value, list) else value
-        elif isinstance(value, (list, tuple)):
-            kwargs[key] = tuple(_build(sub, v, f"{path}.{key}.{i}") for i, v in enumerate(value))
+def _format(exc: ValidationError) -> list[str]:
+    out = []
+    for err in exc.errors(include_url=False):
+        path = ".".join(str(p) for p in err["loc"]) or "design"
+        msg = err["msg"].removeprefix("Value error, ")
+        if err["type"] == "missing":
+            out.append(f"{path}: required field is missing")
+        elif err["type"] == "extra_forbidden":
+            out.append(f"{path}: unknown key (value {err['input']!r}); check the spelling")
+        elif ";" in msg and path == "design":
+            out += [m.strip() for m in msg.split(";")]
         else:
-            kwargs[key] = _build(sub, value, f"{path}.{key}")
+            out.append(f"{path}: {msg} (got {err['input']!r})" if "input" in err and not
+                       isinstance(err["input"], dict) else f"{path}: {msg}")
+    return out
+
+
+def design_from_dict(data: Any) -> Design:
+    """Validate nested dicts (e.g. a parsed TOML file) into a Design."""
+    if isinstance(data, Design):
+        return data
     try:
-        return cls(**kwargs)
-    except TypeError as exc:
-        raise DesignError(f"{path}: {exc}") from None
+        return Design.model_validate(data)
+    except ValidationError as exc:
+        raise DesignError(_format(exc)) from None
 
 
-_NESTED = {
-    (Soil, "layers"): SoilLayer,
-    (Piles, "rings"): PileRing,
-    (Design, "soil"): Soil,
-    (Design, "cap"): Cap,
-    (Design, "piles"): Piles,
-    (Design, "loading"): Loading,
-    (Design, "analysis"): Analysis,
-    (Design, "requirements"): Requirements,
-    (Design, "keypoints"): Keypoints,
-}
-
-
-def design_from_dict(data: dict) -> Design:
-    """A Design from nested dicts (keys as the dataclass fields)."""
-    return _build(Design, data, "design")
+def load_design(path: str | Path) -> Design:
+    """Read and validate a TOML design file."""
+    if sys.version_info >= (3, 11):
+        import tomllib
+    else:  # pragma: no cover
+        import tomli as tomllib
+    p = Path(path)
+    if not p.is_file():
+        raise DesignError(f"{p}: no such design file")
+    try:
+        data = tomllib.loads(p.read_text(encoding="utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise DesignError(f"{p}: not valid TOML ({exc})") from None
+    return design_from_dict(data)
 
 
 def demo_design(**analysis) -> Design:
     """The invented demo: "Fennwick Polder", position FW-07 (fictitious site and turbine)."""
-    soil = Soil(water_table=0.6, layers=(
-        SoilLayer("clay crust", 1.2, "tresca", 17.0, 17.0, su=30.0, E=6000.0, G0=12000.0),
-        SoilLayer("peat", 2.8, "tresca", 10.5, 10.5, su=8.0, su_gradient=6.0 / 2.8,
-                  E=1000.0, E_gradient=0.0, G0=2500.0),
-        SoilLayer("soft organic clay", 8.5, "tresca", 15.5, 15.5, su=12.0, su_gradient=1.4,
-                  E=2400.0, E_gradient=280.0, G0=8000.0),
-        SoilLayer("silty clay", 4.0, "tresca", 17.5, 17.5, su=40.0, E=8000.0, G0=25000.0),
-        SoilLayer("dense sand", 30.0, "mohr_coulomb", 19.0, 20.5, E=40000.0, nu=0.3, c=0.5,
-                  phi=35.0, psi=5.0, G0=90000.0),
-    ))
-    cap = Cap(diameter=22.0, underside_depth=3.0, edge_thickness=1.2, centre_thickness=3.0,
-              pedestal_diameter=6.4)
-    piles = Piles(width=0.45, length=21.5, rings=(PileRing(9.9, 28, 1 / 6),
-                                                    PileRing(6.6, 16, 0.0)))
-    loading = Loading(vertical=8400.0, control="lever", lever_arm=92.0, rotation_max=0.005)
-    req = Requirements(static_stiffness_min=30e6, static_stiffness_moment=138e3,
-                       dynamic_stiffness_min=150e6, dynamic_stiffness_moment=40e3,
-                       design_moment=186.3e3, resistance_factor=1.0, no_tension_moment=72e3)
-    kp = Keypoints(rotations=(0.001, 0.003, 0.005), moments=(40e3, 138e3))
-    return Design("Fennwick Polder FW-07", soil, cap, piles, loading, Analysis(**analysis), req,
-                  kp)
+    return Design(
+        name="Fennwick Polder FW-07",
+        soil=Soil(water_table=0.6, layers=[
+            SoilLayer(name="clay crust", thickness=1.2, model="tresca", gamma=17.0,
+                      gamma_sat=17.0, su=30.0, E=6000.0, G0=12000.0),
+            SoilLayer(name="peat", thickness=2.8, model="tresca", gamma=10.5, gamma_sat=10.5,
+                      su=8.0, su_gradient=6.0 / 2.8, E=1600.0, E_gradient=430.0, G0=2500.0),
+            SoilLayer(name="soft organic clay", thickness=8.5, model="tresca", gamma=15.5,
+                      gamma_sat=15.5, su=12.0, su_gradient=1.4, E=2400.0, E_gradient=280.0,
+                      G0=8000.0),
+            SoilLayer(name="silty clay", thickness=4.0, model="tresca", gamma=17.5,
+                      gamma_sat=17.5, su=40.0, E=8000.0, G0=25000.0),
+            SoilLayer(name="dense sand", thickness=30.0, model="mohr_coulomb", gamma=19.0,
+                      gamma_sat=20.5, E=40000.0, nu=0.3, c=0.5, phi=35.0, psi=5.0,
+                      G0=90000.0),
+        ]),
+        cap=Cap(diameter=22.0, underside_depth=3.0, edge_thickness=1.2, centre_thickness=3.0,
+                pedestal_diameter=6.4),
+        piles=Piles(width=0.45, length=21.5, rings=[PileRing(radius=9.9, count=28, rake=1 / 6),
+                                                    PileRing(radius=6.6, count=16)]),
+        loading=Loading(vertical=8400.0, control="lever", lever_arm=92.0, rotation_max=0.005),
+        analysis=Analysis(**analysis),
+        requirements=Requirements(static_stiffness_min=30e6, static_stiffness_moment=138e3,
+                                  dynamic_stiffness_min=150e6, dynamic_stiffness_moment=40e3,
+                                  design_moment=186.3e3, resistance_factor=1.0,
+                                  no_tension_moment=72e3),
+        keypoints=Keypoints(rotations=[0.001, 0.003, 0.005], moments=[40e3, 138e3]),
+    )

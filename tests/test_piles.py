@@ -279,13 +279,11 @@ def test_axisymmetric_vertical_capacity_bounded_by_pile_resistances():
     """Axisymmetric smeared rings, cap without contact: the vertical load on the piled cap can
     never exceed the sum of the shaft and tip resistances of all piles (every load path runs
     through the interface springs) [D], and the response starts stiff and positive."""
-    from dataclasses import replace
-
     from femcore.design import Analysis, Loading
 
-    d = demo_design()
-    d = replace(d, analysis=Analysis(geometry="axisymmetric", mesh="coarse", element="T6"),
-                loading=Loading(vertical=8400.0, control="settlement", settlement_max=0.1))
+    d = demo_design().model_copy(update={
+        "analysis": Analysis(geometry="axisymmetric", mesh="coarse", element="T6"),
+        "loading": Loading(vertical=8400.0, control="settlement", settlement_max=0.1)})
     r = run_design(d)
     assert r.status in ("ok", "censored"), r.message
     total = sum(pr.springs.f_max[:, 0].sum() + pr.tip.f_max[0, 0] for pr in r.built.rows)

@@ -1,0 +1,217 @@
+"""The `tiltfe` command end to end, bad input handling and a property-based robustness test.
+
+References: the design-file contract (DESIGN 5.1-5.3): exit 0 on success, 2 on bad input with
+one message per problem naming the field; result.json validates against its schema and its
+numbers equal the Python API's for the same design (1e-9 relative).
+"""
+
+import copy
+import json
+import subprocess
+import sys
+
+try:
+    import tomllib
+except ImportError:  # Python 3.10
+    import tomli as tomllib
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from femcore import cli
+from femcore.analysis import run_design
+from femcore.design import Design, load_design
+from femcore.results import result_file_model
+
+ROOT = Path(__file__).resolve().parents[1]
+SMALL = ROOT / "examples" / "small_group_springs.toml"
+DEMO = ROOT / "examples" / "fennwick_fw07.toml"
+
+
+def _toml(data: dict) -> str:
+    """Minimal TOML writer for nested dicts / arrays of tables (test inputs only)."""
+    out: list[str] = []
+
+    def value(v):
+        if isinstance(v, bool):
+            return "true" if v else "false"
+        if isinstance(v, str):
+            return json.dumps(v)
+        if isinstance(v, list):
+            return "[" + ", ".join(value(x) for x in v) + "]"
+        return repr(v)
+
+    def table(prefix, d):
+        scalars = {k: v for k, v in d.items() if not isinstance(v, dict)
+                   and not (isinstance(v, list) and v and isinstance(v[0], dict))}
+        for k, v in scalars.items():
+            out.append(f"{k} = {value(v)}")
+        for k, v in d.items():
+            name = f"{prefix}.{k}" if prefix else k
+            if isinstance(v, dict):
+                out.append(f"[{name}]")
+                table(name, v)
+            elif isinstance(v, list) and v and isinstance(v[0], dict):
+                for item in v:
+                    out.append(f"[[{name}]]")
+                    table(name, item)
+
+    table("", data)
+    return "\n".join(out) + "\n"
+
+
+def test_run_end_to_end_matches_python_api(tmp_path, capsys):
+    out = tmp_path / "out"
+    code = cli.main(["run", str(SMALL), "--out", str(out)])
+    assert code == 0
+    printed = capsys.readouterr().out
+    assert "Caution" in printed and "initial_stiffness" in printed
+    for name in ("result.json", "curve.csv", "fields.vtu", "report.pdf", "moment_rotation.png"):
+        assert (out / name).stat().st_size > 0, name
+    data = json.loads((out / "result.json").read_text())
+    result_file_model().model_validate(data)  # the file matches its schema
+    api = run_design(load_design(SMALL))
+    assert data["keypoints"]["initial_stiffness"]["value"] == pytest.approx(
+        api.keypoints["initial_stiffness"].value, rel=1e-9)
+    assert np.allclose(data["curve"]["moment"], api.curve["moment"], rtol=1e-9)
+    csv = (out / "curve.csv").read_text().splitlines()
+    assert csv[0].startswith("rotation [rad]") and len(csv) == len(api.curve["rotation"]) + 1
+
+
+def test_check_and_schema(capsys):
+    assert cli.main(["check", str(DEMO)]) == 0
+    out = capsys.readouterr().out
+    assert "11 rows" in out and "L = 18.674 m" in out
+    assert cli.main(["schema"]) == 0
+    schema = json.loads(capsys.readouterr().out)
+    props = schema["$defs"]["Cap"]["properties"]
+    assert "m" in props["diameter"]["description"]  # units in every description
+    for defn in schema["$defs"].values():
+        for name, prop in defn.get("properties", {}).items():
+            assert prop.get("description"), f"{name} has no description"
+
+
+def test_help_is_fast_and_module_entry_point():
+    res = subprocess.run([sys.executable, "-m", "femcore", "--help"], capture_output=True,
+                         text=True, timeout=60)
+    assert res.returncode == 0 and "tiltfe" in res.stdout
+    res = subprocess.run([sys.executable, "-c", "import femcore.cli, sys; "
+                          "print('matplotlib' in sys.modules, 'gmsh' in sys.modules)"],
+                         capture_output=True, text=True, timeout=60)
+    assert res.stdout.split() == ["False", "False"]  # imported lazily
+
+
+BASE = tomllib.loads(DEMO.read_text())
+
+
+def _bad(path_value):
+    """A copy of the demo with one dotted path set (or deleted with value ...)."""
+    data = copy.deepcopy(BASE)
+    path, value = path_value
+    keys = path.split(".")
+    node = data
+    for k in keys[:-1]:
+        node = node[int(k)] if k.isdigit() else node[k]
+    last = keys[-1]
+    if value is Ellipsis:
+        del node[last]
+    elif last.isdigit():
+        node[int(last)] = value
+    else:
+        node[last] = value
+    return data
+
+
+BAD_INPUTS = [
+    (("cap.diameter", "large"), "cap.diameter"),
+    (("cap.diameter", -22.0), "cap.diameter"),
+    (("cap", ...), "cap"),
+    (("piles.width", 0.0), "piles.width"),
+    (("piles.length", -5.0), "piles.length"),
+    (("soil.layers.0.nu", 0.5), "soil.layers.0.nu"),
+    (("soil.layers.4.phi", 75.0), "soil.layers.4.phi"),
+    (("soil.layers.4.psi", 40.0), "psi"),
+    (("soil.layers.0.su", ...), "su"),
+    (("soil.layers.4.E", ...), "E"),
+    (("soil.layers.0.model", "cam_clay"), "soil.layers.0.model"),
+    (("piles.rings.0.radius", 12.0), "piles.rings.0.radius"),
+    (("piles.rings.1.radius", 9.5), "overlap"),
+    (("piles.rings.0.count", 200), "piles.rings.0.count"),
+    (("piles.rings.0.rake", 0.8), "piles.rings.0.rake"),
+    (("soil.layers.4.thickness", 5.0), "soil.layers"),
+    (("soil.water_table", -1.0), "soil.water_table"),
+    (("cap.colour", "grey"), "cap.colour"),
+    (("loading.lever_arm", ...), "lever_arm"),
+    (("loading.control", "force"), "loading.control"),
+    (("analysis.element", "Q8"), "analysis.element"),
+    (("cap.edge_thickness", 4.0), "edge_thickness"),
+    (("loading.rotation_max", 2.0), "loading.rotation_max"),
+    (("name", ...), "name"),
+]
+
+
+@pytest.mark.parametrize("change,field", BAD_INPUTS, ids=[c[0][0] for c in BAD_INPUTS])
+def test_bad_input_exit_2_names_the_field(tmp_path, capsys, change, field):
+    path = tmp_path / "bad.toml"
+    path.write_text(_toml(_bad(change)))
+    code = cli.main(["check", str(path)])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert field in err, err
+    assert "Traceback" not in err
+
+
+def test_malformed_and_missing_files(tmp_path, capsys):
+    bad = tmp_path / "broken.toml"
+    bad.write_text("name = 'x'\n[cap\n")
+    assert cli.main(["check", str(bad)]) == 2
+    assert "not valid TOML" in capsys.readouterr().err
+    assert cli.main(["run", str(tmp_path / "nowhere.toml")]) == 2
+    assert "no such design file" in capsys.readouterr().err
+
+
+def test_demo_file_equals_builtin_demo():
+    from femcore.design import demo_design
+
+    file_design = load_design(DEMO)
+    builtin = demo_design()
+    assert isinstance(file_design, Design)
+    assert file_design.cap == builtin.cap and file_design.loading == builtin.loading
+    assert [r.count for r in file_design.piles.rings] == [28, 16]
+
+
+hypothesis = pytest.importorskip("hypothesis")
+st = hypothesis.strategies
+
+
+def _leaves(d, prefix=""):
+    if isinstance(d, dict):
+        for k, v in d.items():
+            yield from _leaves(v, f"{prefix}.{k}" if prefix else k)
+    elif isinstance(d, list) and d and isinstance(d[0], dict):
+        for i, v in enumerate(d):
+            yield from _leaves(v, f"{prefix}.{i}")
+    else:
+        yield prefix
+
+
+LEAVES = [p for p in _leaves(BASE)]
+WEIRD = st.one_of(st.floats(allow_nan=True, allow_infinity=True), st.integers(-10**6, 10**6),
+                  st.text(max_size=5), st.booleans(), st.lists(st.floats(), max_size=3))
+
+
+@hypothesis.settings(max_examples=30, deadline=None,
+                     suppress_health_check=[hypothesis.HealthCheck.function_scoped_fixture])
+@hypothesis.given(path=st.sampled_from(LEAVES), value=WEIRD)
+def test_random_perturbations_never_traceback(tmp_path, path, value):
+    """Any single-value perturbation of the demo file gives exit 0 or 2, never an exception."""
+    data = _bad((path, value))
+    data.setdefault("analysis", {})["support"] = "springs"  # keep each example fast
+    f = tmp_path / "p.toml"
+    try:
+        f.write_text(_toml(data))
+    except (TypeError, ValueError):
+        return
+    code = cli.main(["check", str(f)])
+    assert code in (0, 2)
