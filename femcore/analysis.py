@@ -93,7 +93,7 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     else:
         f_weight[W] = -built.meta["cap_weight_kN_per_m"]
     f0, _, _ = model.evaluate(np.zeros(model.n_dofs), states, tangent=False)
-    stage_cfg = PushoverSettings(initial_step=1.0, max_step=1.0, min_step=1e-3)
+    stage_cfg = PushoverSettings(initial_step=0.5, max_step=0.5, min_step=1e-3, max_iterations=12)
     t1 = time.perf_counter()
     res_w = Pushover(model, cmap_free, f0, [], [], f_ext_end=f_weight,
                      settings=stage_cfg).run(states0=states)
