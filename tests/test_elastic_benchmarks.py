@@ -6,33 +6,15 @@ Each test names its published source; tolerances are those of VALIDATION.md unle
 import numpy as np
 import pytest
 
+from benchmarks.elastic import NU, E, G, punch_stiffness, rocking_stiffness, strip_stress
 from femcore import Model
 from femcore.loads import edge_traction
 from femcore.probe import displacement_at, strain_at
 from materials import LinearElastic, elastic_matrix
 from meshing import layered_domain
 
-E, NU = 1.0e4, 0.3
-G = E / (2 * (1 + NU))
-
 
 # --------------------------------------------------------------------------- B3 strip load
-def strip_stress(x, q=1.0, b=1.0):
-    """Uniform strip load q on |x| <= b: stresses [xx, yy, xy], tension positive, y up.
-
-    Poulos & Davis (1974), *Elastic Solutions for Soil and Rock Mechanics*, Table 3.1 (from
-    memory): sigma_z = q/pi [alpha + sin(alpha) cos(t1 + t2)], sigma_x = q/pi [alpha -
-    sin(alpha) cos(t1 + t2)], tau = q/pi sin(alpha) sin(t1 + t2); t_i = atan((x -+ b)/z).
-    """
-    X, z = x[..., 0], np.maximum(-x[..., 1], 1e-300)
-    t1, t2 = np.arctan((X + b) / z), np.arctan((X - b) / z)
-    a, s = t1 - t2, t1 + t2
-    sz = q / np.pi * (a + np.sin(a) * np.cos(s))
-    sx = q / np.pi * (a - np.sin(a) * np.cos(s))
-    txz = q / np.pi * np.sin(a) * np.sin(s)
-    return np.stack([-sx, -sz, txz], axis=-1)
-
-
 def test_strip_formula_reference_values():
     # VALIDATION B3 table (q = 1, b = 1): (0, 0.5): sigma_z 0.9595, sigma_x 0.4502;
     # (0, 2): 0.5498, 0.0405 -- checks our transcription of the closed form, 1e-4 absolute
@@ -93,30 +75,6 @@ def test_strip_load_differential_settlement():
 
 
 # --------------------------------------------------------------------------- B4 rocking
-def rocking_stiffness(element, h_near, components, width=40.0):
-    b = 1.0
-    mesh = layered_domain(width, width / 2, footing=(-b, b), h=width / 20, h_near=h_near,
-                          refine_radius=2.5, element=element)
-    model = Model(mesh)
-    model.add_block("soil", "soil", LinearElastic(E, NU))
-    model.add_reference_point("footing", (0.0, 0.0))
-    cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
-    cons.tie_rigid(mesh.nodes_of("footing"), "footing", components)
-    dm = model.dofmap
-    theta = 1e-4
-    cons.fix([dm.ref_dof("footing", 2)], [theta])
-    if 0 not in components:
-        cons.fix([dm.ref_dof("footing", 0)], [0.0])  # unused horizontal DOF of the reference
-    cmap = cons.build()
-    sol = model.solve_linear(cmap, np.zeros(model.n_dofs))
-    moment = cmap.generalized_at(sol.reactions, dm.ref_dof("footing", 2))
-    vertical = cmap.generalized_at(sol.reactions, dm.ref_dof("footing", 1))
-    return moment / theta, vertical
-
-
 @pytest.mark.parametrize("element,h_near", [("T6", 0.02), ("T15", 0.05)])
 def test_rigid_strip_rocking_stiffness(element, h_near):
     """K_theta = pi G b^2 / (2 (1 - nu)) per metre for a smooth rigid strip (Gazetas 1991,
@@ -139,29 +97,6 @@ def test_bonded_rocking_is_stiffer_than_smooth():
 
 
 # --------------------------------------------------------------------------- B5 punch
-def punch_stiffness(L, components, element="T15", h_near=0.05):
-    R = 1.0
-    mesh = layered_domain(L, L, x_min=0.0, footing=(0.0, R), h=L / 10, h_near=h_near,
-                          refine_radius=2.0, element=element)
-    model = Model(mesh, "axisymmetric")
-    model.add_block("soil", "soil", LinearElastic(E, NU))
-    model.add_reference_point("punch", (0.0, 0.0))
-    cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
-    nodes = mesh.nodes_of("footing")
-    nodes = nodes[mesh.points[nodes, 0] > 0]  # the axis node keeps u_r = 0 from symmetry
-    cons.tie_rigid(nodes, "punch", components)
-    dm = model.dofmap
-    w = -1e-3
-    cons.fix([dm.ref_dof("punch", 0), dm.ref_dof("punch", 1), dm.ref_dof("punch", 2)],
-             [0.0, w, 0.0])
-    cmap = cons.build()
-    sol = model.solve_linear(cmap, np.zeros(model.n_dofs))
-    return cmap.generalized_at(sol.reactions, dm.ref_dof("punch", 1)) / w
-
-
 def test_rigid_circular_punch_with_domain_trend():
     """K_V = 4 G R / (1 - nu), smooth rigid circular punch (Boussinesq; Sneddon 1946, from
     memory). Settlement decays like 1/r, so a finite domain stiffens the answer by ~ c R/L:
