@@ -57,3 +57,36 @@ def test_return_map_and_newton_scripts_quick(tmp_path):
                  and k not in ("t_iteration_ms", "t_outside_solver_ms"))
     assert phases == pytest.approx(rec["t_iteration_ms"], rel=1e-9)
     assert 0.02 < rec["plastic_fraction"] < 0.9
+
+
+def test_bench_runner_detects_regressions():
+    """The comparison rules of `tiltfe bench` (issue contract): newly failing, an error moved
+    by more than half the band, a speed-up ratio below half the baseline."""
+    from benchmarks.runner import compare
+
+    base = {"a": {"kind": "validation", "error": 0.001, "passed": True},
+            "b": {"kind": "validation", "error": 0.001, "passed": True},
+            "c": {"kind": "ratio", "computed": 20.0, "passed": True}}
+    rows = [{"case": "a", "kind": "validation", "error": 0.0012, "band": [0.0, 0.02],
+             "passed": True},
+            {"case": "b", "kind": "validation", "error": 0.015, "band": [0.0, 0.02],
+             "passed": True},
+            {"case": "c", "kind": "ratio", "computed": 9.0, "passed": True}]
+    msgs = compare(rows, base)
+    assert len(msgs) == 2 and msgs[0].startswith("b:") and msgs[1].startswith("c:")
+    rows[0]["passed"] = False
+    assert any(m.startswith("a:") for m in compare(rows, base))
+
+
+def test_bench_quick_suite_passes_against_baseline(tmp_path):
+    """`tiltfe bench --quick`: every validation case inside its band (references and sources
+    in benchmarks/collapse.py and benchmarks/validation.py) and no regression against the
+    committed baseline."""
+    res = subprocess.run([sys.executable, "-m", "femcore", "bench", "--quick", "--out",
+                          str(tmp_path)], cwd=ROOT, capture_output=True, text=True,
+                         timeout=1800)
+    assert res.returncode == 0, res.stdout[-4000:] + res.stderr[-2000:]
+    data = json.loads((tmp_path / "bench.json").read_text())
+    validation = [r for r in data["rows"] if r["kind"] == "validation"]
+    assert len(validation) >= 25 and all(r["passed"] for r in validation)
+    assert (tmp_path / "convergence.png").stat().st_size > 0
