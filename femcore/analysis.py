@@ -93,7 +93,8 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     else:
         f_weight[W] = -built.meta["cap_weight_kN_per_m"]
     f0, _, _ = model.evaluate(np.zeros(model.n_dofs), states, tangent=False)
-    stage_cfg = PushoverSettings(initial_step=0.5, max_step=0.5, min_step=1e-3, max_iterations=12)
+    stage_cfg = PushoverSettings(initial_step=0.5, max_step=0.5, min_step=1e-3,
+                                 max_iterations=12, reuse_factorization=True)
     t1 = time.perf_counter()
     res_w = Pushover(model, cmap_free, f0, [], [], f_ext_end=f_weight,
                      settings=stage_cfg).run(states0=states)
@@ -127,7 +128,7 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
         target = 1.6 * loading.rotation_max * h  # tip travel; stops on the rotation
         first = loading.initial_increment * h / target
     cfg = settings or PushoverSettings(initial_step=first, min_step=min(first, 1e-4) / 8,
-                                       max_step=0.04, grow=1.6)
+                                       max_step=0.04, grow=1.6, reuse_factorization=True)
 
     def stop(rec: StepRecord) -> bool:
         return rec.monitor[2] - theta0 >= loading.rotation_max * (1 - 1e-9)

@@ -79,10 +79,14 @@ def element_stiffness(geom: CellGeometry, D: NDArray[np.float64]) -> NDArray[np.
 
 
 def element_internal_force(geom: CellGeometry, stress: NDArray[np.float64]) -> NDArray[np.float64]:
-    """``f_e = sum_q B^T sigma dV``, ``(c, i)``."""
-    return np.einsum("cqki,cqk,cq->ci", geom.B, stress, geom.dV, optimize=True)
+    """``f_e = sum_q B^T sigma dV``, ``(c, i)``: one batched product with the cached
+    ``(B dV)^T``."""
+    n_c, n_q = geom.dV.shape
+    return np.matmul(geom.BtdV, stress.reshape(n_c, n_q * 4, 1))[..., 0]
 
 
 def element_strain(geom: CellGeometry, u_e: NDArray[np.float64]) -> NDArray[np.float64]:
     """Strain at quadrature points from element displacements ``u_e (c, i)`` -> ``(c, q, 4)``."""
-    return np.einsum("cqki,ci->cqk", geom.B, u_e, optimize=True)
+    n_c, n_q, n_k, n_i = geom.B.shape
+    return np.matmul(geom.B.reshape(n_c, n_q * n_k, n_i), u_e[..., None]).reshape(
+        n_c, n_q, n_k)

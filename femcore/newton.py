@@ -7,6 +7,7 @@ recorded; failure raises :class:`ConvergenceError` carrying that history.
 
 from __future__ import annotations
 
+import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
@@ -15,7 +16,7 @@ import numpy as np
 import scipy.sparse as sp
 from numpy.typing import NDArray
 
-from .linsolve import SolverError, solve
+from .linsolve import STATS, SolverError, factorize
 
 __all__ = ["NewtonResult", "ConvergenceError", "newton"]
 
@@ -49,6 +50,7 @@ def newton(
     max_iter: int = 25,
     backend: str = "superlu",
     divergence: float = 1e6,
+    reuse: dict | None = None,
 ) -> NewtonResult:
     """Solve ``r(x) = 0``.
 
@@ -62,23 +64,51 @@ def newton(
     rtol : relative tolerance on ``||r|| / scale``.
     max_iter : iterations allowed.
     divergence : give up early when the relative residual exceeds this.
+    reuse : optional dict holding a factorization (key ``"lu"``) from an earlier solve. If
+        present, the first iteration uses it instead of a new tangent (a modified-Newton step:
+        exact when the tangent has not changed, e.g. in the elastic range); a new tangent is
+        factorized as soon as that step reduces the residual by less than a factor 10. The
+        latest factorization is stored back. Quadratic convergence is kept once tangents are
+        fresh.
     """
     x = np.array(x0, dtype=np.float64)
     history: list[float] = []
+    stale = reuse.get("lu") if reuse is not None else None
+    used_stale = False
     for it in range(max_iter + 1):
         r, K, scale, payload = residual(x)
         scale = scale if scale > 0 and np.isfinite(scale) else 1.0
         rel = float(np.linalg.norm(r) / scale)
         history.append(rel)
         if not np.isfinite(rel) or rel > divergence:
+            if reuse is not None:
+                reuse.pop("lu", None)
             raise ConvergenceError(f"diverged after {it} iteration(s)", history)
         if rel <= rtol:
             return NewtonResult(x, it, history, payload)
         if it == max_iter:
             break
+        if used_stale and rel > 0.1 * history[-2]:
+            stale = None  # the old tangent is not good enough any more
         try:
-            x = x - solve(K() if callable(K) else K, r, backend)
+            if stale is not None:
+                lu, used_stale = stale, True
+            else:
+                lu, used_stale = factorize(K() if callable(K) else K, backend), False
+                if reuse is not None:
+                    reuse["lu"] = lu
+            t0 = time.perf_counter()
+            dx = lu.solve(r)
+            STATS["seconds"] += time.perf_counter() - t0
+            STATS["solves"] += 1
+            if not np.all(np.isfinite(dx)):
+                raise SolverError("the linear solve produced non-finite values")
+            x = x - dx
         except SolverError as exc:
+            if reuse is not None:
+                reuse.pop("lu", None)
             raise ConvergenceError(f"linear solve failed at iteration {it + 1}: {exc}",
                                    history) from exc
+    if reuse is not None:
+        reuse.pop("lu", None)
     raise ConvergenceError(f"no convergence in {max_iter} iterations", history)

@@ -46,6 +46,7 @@ class PushoverSettings:
     max_iterations: int = 25
     drop_fraction: float | None = None  # stop when |force| < (1 - drop) * peak
     backend: str = "superlu"
+    reuse_factorization: bool = False  # modified-Newton first step with the last tangent
 
     def __post_init__(self) -> None:
         if not 0 < self.min_step <= self.initial_step <= self.max_step <= 1:
@@ -161,6 +162,7 @@ class Pushover:
         records: list[StepRecord] = []
         lam, step, cutbacks, peak = 0.0, cfg.initial_step, 0, 0.0
         velocity = None  # d(u_free)/d(lam) of the last increment: the predictor
+        reuse: dict | None = {} if cfg.reuse_factorization else None
         status, message = "ok", "target reached"
         while lam < 1.0 - 1e-12:
             step = min(step, 1.0 - lam)
@@ -171,7 +173,8 @@ class Pushover:
                 self.f_ext + (lam + step) * (self.f_ext_end - self.f_ext)
             try:
                 res = newton(residual_callback(model, cmap, f_ext, states), guess,
-                             rtol=cfg.rtol, max_iter=cfg.max_iterations, backend=cfg.backend)
+                             rtol=cfg.rtol, max_iter=cfg.max_iterations, backend=cfg.backend,
+                             reuse=reuse)
             except ConvergenceError as exc:
                 cutbacks += 1
                 log.debug("increment %.3g failed at lam %.4f: %s", step, lam, exc)
