@@ -291,3 +291,30 @@ def test_axisymmetric_vertical_capacity_bounded_by_pile_resistances():
     assert V.max() <= total * (1 + 1e-6)
     assert np.all(np.diff(V) > 0)
     assert r.keypoints["vertical_stiffness"].value > 0
+
+
+def test_lever_with_long_arm_equals_rotation_control():
+    """A lever arm h -> infinity makes H = M/h -> 0, so the lever-controlled curve tends to the
+    rotation-controlled one with H = 0 (statics); at h = 1e4 m they agree to 1e-3 [D]."""
+    from femcore.design import Loading
+
+    base = demo_design(support="springs")
+    lever = base.model_copy(update={"loading": Loading(vertical=8400.0, control="lever",
+                                                       lever_arm=1e4, rotation_max=0.002)})
+    rot = base.model_copy(update={"loading": Loading(vertical=8400.0, control="rotation",
+                                                     rotation_max=0.002)})
+    a, b = run_design(lever), run_design(rot)
+    for th in (1e-4, 1e-3, 0.002):
+        ma = np.interp(th, a.curve["rotation"], a.curve["moment"])
+        mb = np.interp(th, b.curve["rotation"], b.curve["moment"])
+        assert ma == pytest.approx(mb, rel=1e-3)
+
+
+def test_fixed_heads_are_stiffer_than_pinned():
+    """Fixing the pile heads adds a constraint: the initial rotational stiffness cannot fall
+    (Rayleigh's principle, common practice) and with raked piles it rises."""
+    base = demo_design(support="springs")
+    pinned = base.model_copy(update={"piles": base.piles.model_copy(update={"head": "pinned"})})
+    k_fixed = run_design(base).keypoints["initial_stiffness"].value
+    k_pinned = run_design(pinned).keypoints["initial_stiffness"].value
+    assert k_fixed > k_pinned > 0
