@@ -11,13 +11,13 @@ Run: ``python -m benchmarks.perf_campaign [--quick] [--json FILE]``.
 
 from __future__ import annotations
 
-import argparse
-import json
 import tempfile
 import time
 from pathlib import Path
 
 from femcore.campaign import Store, load_space, run_campaign, sample_space
+
+from ._script import script_main
 
 SPACE = Path(__file__).resolve().parents[1] / "examples" / "fennwick_space.toml"
 
@@ -49,17 +49,7 @@ def run(quick: bool = False) -> dict:
 
 
 def main(argv: list[str] | None = None) -> int:
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--quick", action="store_true")
-    ap.add_argument("--json")
-    args = ap.parse_args(argv)
-    out = run(args.quick)
-    for k, v in out.items():
-        print(f"{k:>32s}: {v:.4g}" if isinstance(v, float) else f"{k:>32s}: {v}")
-    if args.json:
-        with open(args.json, "w") as fh:
-            json.dump(out, fh, indent=2)
-    return 0
+    return script_main(__doc__, run, argv)
 
 
 if __name__ == "__main__":

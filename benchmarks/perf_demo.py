@@ -9,13 +9,13 @@ Run: ``python -m benchmarks.perf_demo [--quick] [--json FILE]``.
 
 from __future__ import annotations
 
-import argparse
-import json
 import time
 
 from femcore import linsolve
 from femcore.analysis import run_design
 from femcore.design import demo_design
+
+from ._script import script_main
 
 CONFIGS = {
     "springs": dict(support="springs"),
@@ -46,19 +46,7 @@ def run(quick: bool = False) -> dict:
 
 
 def main(argv: list[str] | None = None) -> int:
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--quick", action="store_true")
-    ap.add_argument("--json")
-    args = ap.parse_args(argv)
-    out = run(args.quick)
-    for name, rec in out.items():
-        if isinstance(rec, dict):
-            print(f"{name:>14s}: " + ", ".join(
-                f"{k} {v:.4g}" if isinstance(v, float) else f"{k} {v}" for k, v in rec.items()))
-    if args.json:
-        with open(args.json, "w") as fh:
-            json.dump(out, fh, indent=2)
-    return 0
+    return script_main(__doc__, run, argv)
 
 
 if __name__ == "__main__":

@@ -11,8 +11,6 @@ Full size ~50k DOFs; quick ~5k DOFs (used by the test suite to keep the script w
 
 from __future__ import annotations
 
-import argparse
-import json
 import time
 
 import numpy as np
@@ -24,6 +22,8 @@ from femcore.assembly import element_stiffness
 from femcore.linsolve import factorize
 from materials import LinearElastic, elastic_matrix
 from meshing import rectangle
+
+from ._script import script_main
 
 E, NU = 3.0e4, 0.3
 
@@ -100,17 +100,7 @@ def run(quick: bool = False) -> dict:
 
 
 def main(argv: list[str] | None = None) -> int:
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--quick", action="store_true")
-    ap.add_argument("--json", help="write the figures to this file")
-    args = ap.parse_args(argv)
-    out = run(args.quick)
-    for k, v in out.items():
-        print(f"{k:>24s}: {v:.4g}" if isinstance(v, float) else f"{k:>24s}: {v}")
-    if args.json:
-        with open(args.json, "w") as fh:
-            json.dump(out, fh, indent=2)
-    return 0
+    return script_main(__doc__, run, argv)
 
 
 if __name__ == "__main__":

@@ -11,8 +11,6 @@ Run: ``python -m benchmarks.perf_newton [--quick] [--json FILE]``.
 
 from __future__ import annotations
 
-import argparse
-import json
 import time
 
 import numpy as np
@@ -28,6 +26,8 @@ from femcore.linsolve import solve
 from femcore.pushover import Pushover, PushoverSettings
 from materials import Tresca
 from meshing import layered_domain
+
+from ._script import script_main
 
 
 def _problem(h_near: float, h_far: float):
@@ -96,21 +96,7 @@ def run(quick: bool = False) -> dict:
 
 
 def main(argv: list[str] | None = None) -> int:
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--quick", action="store_true")
-    ap.add_argument("--json")
-    args = ap.parse_args(argv)
-    out = run(args.quick)
-    for label, rec in out.items():
-        if not isinstance(rec, dict):
-            continue
-        print(f"--- {label}")
-        for k, v in rec.items():
-            print(f"{k:>28s}: {v:.4g}" if isinstance(v, float) else f"{k:>28s}: {v}")
-    if args.json:
-        with open(args.json, "w") as fh:
-            json.dump(out, fh, indent=2)
-    return 0
+    return script_main(__doc__, run, argv)
 
 
 if __name__ == "__main__":

@@ -11,13 +11,13 @@ Run: ``python -m benchmarks.perf_return_map [--quick] [--json FILE]``.
 
 from __future__ import annotations
 
-import argparse
-import json
 import time
 
 import numpy as np
 
 from materials import MohrCoulomb, Tresca
+
+from ._script import script_main
 
 
 def _rate(model, n_points: int, repeat: int, strain: float, seed: int = 0):
@@ -58,17 +58,7 @@ def run(quick: bool = False) -> dict:
 
 
 def main(argv: list[str] | None = None) -> int:
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--quick", action="store_true")
-    ap.add_argument("--json")
-    args = ap.parse_args(argv)
-    out = run(args.quick)
-    for k, v in out.items():
-        print(f"{k:>36s}: {v:.4g}" if isinstance(v, float) else f"{k:>36s}: {v}")
-    if args.json:
-        with open(args.json, "w") as fh:
-            json.dump(out, fh, indent=2)
-    return 0
+    return script_main(__doc__, run, argv)
 
 
 if __name__ == "__main__":

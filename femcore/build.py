@@ -142,32 +142,20 @@ class _SoilAtDepth:
         return res
 
 
-def _cap_polygon(design: Design) -> tuple[list[tuple[float, float]], float]:
+def _cap_polygon(design: Design, half: bool = False) -> tuple[list[tuple[float, float]], float]:
+    """Cap section through the centre (``half``: its x >= 0 part, for axisymmetry) and the
+    height of the tower base."""
     cap = design.cap
     R, rp = cap.diameter / 2, cap.pedestal_diameter / 2
     yu = -cap.underside_depth
     yc = yu + cap.centre_thickness
     ye = yu + cap.edge_thickness
     top = yc + cap.pedestal_height
-    pts = [(-R, yu), (R, yu), (R, ye), (rp, yc)]
-    if cap.pedestal_height > 0:
-        pts += [(rp, top), (-rp, top)]
-    pts += [(-rp, yc), (-R, ye)]
-    return pts, top
-
-
-def _axis_polygon(design: Design) -> list[tuple[float, float]]:
-    """Half cap section x >= 0 for axisymmetric models."""
-    cap = design.cap
-    R, rp = cap.diameter / 2, cap.pedestal_diameter / 2
-    yu = -cap.underside_depth
-    yc = yu + cap.centre_thickness
-    ye = yu + cap.edge_thickness
-    top = yc + cap.pedestal_height
-    pts = [(0.0, yu), (R, yu), (R, ye), (rp, yc)]
-    if cap.pedestal_height > 0:
-        pts += [(rp, top)]
-    return pts + [(0.0, top)]
+    right = [(R, yu), (R, ye), (rp, yc)] + ([(rp, top)] if cap.pedestal_height > 0 else [])
+    if half:
+        return [(0.0, yu), *right, (0.0, top)], top
+    left = [(-x, y) for x, y in reversed(right)]
+    return [(-R, yu), *right, *left[:-1]], top
 
 
 def _pile_section(design: Design):
@@ -226,9 +214,7 @@ def build_model(design: Design) -> BuiltModel:
         rows = lump_rings(rings, an.row_merge, depth=vertical_extent)
     profile = soil_profile(design)
     soil_at = _SoilAtDepth(design, profile)
-    poly, ped_top = _cap_polygon(design)
-    if axisym:  # the half section x >= 0 of the cap
-        poly = _axis_polygon(design)
+    poly, ped_top = _cap_polygon(design, half=axisym)
     head_y = -cap.underside_depth
     A, I, perimeter, r0 = _pile_section(design)
 
