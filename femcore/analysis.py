@@ -66,7 +66,8 @@ def _pile_observer(built: BuiltModel):
             comp = -axial * per_pile
             out.append({"head_compression": float(comp[0]), "max_compression": float(comp.max()),
                         "min_compression": float(comp.min()),
-                        "max_abs_moment": float(np.abs(moments).max() * per_pile)})
+                        "max_abs_moment": float(np.abs(moments).max() * per_pile),
+                        "compression": comp, "moment": moments.mean(axis=1) * per_pile})
         return {"piles": out}
 
     return observe
@@ -191,10 +192,11 @@ def _settlement_pushover(built, res_w, f_weight, t0, t1, progress, settings) -> 
                                             "secant V/w at the first increment",
                                             {"settlement": float(settle[0])})
         tu, vu, censored = ultimate_plateau(settle, V, k0)
-        kp["ultimate_vertical"] = KeyPoint("ultimate_vertical", vu, "kN",
-                                           "plateau: tangent below 2 % of the initial stiffness",
-                                           {"tangent_ratio": 0.02},
-                                           {"settlement": tu, "censored": censored})
+        kp["ultimate_vertical"] = KeyPoint(
+            "ultimate_vertical", vu, "kN",
+            "maximum load (no plateau: censored)" if censored else
+            "plateau: tangent below 2 % of the initial stiffness",
+            {"tangent_ratio": 0.02}, {"settlement": tu, "censored": censored})
         v_at = moment_at_rotation(settle, V, min(0.1 * design.piles.width, settle[-1]))
         kp["vertical_at_10pct_width"] = KeyPoint("vertical_at_10pct_width", v_at, "kN",
                                                  "load at a settlement of 10 % of the pile width",
@@ -228,10 +230,18 @@ def _pile_summary(built: BuiltModel, res: PushoverResult) -> list[dict]:
         series = [r.extra["piles"][k] for r in res.records if r.extra]
         if not series:
             continue
+        comp = np.array([s["compression"] for s in series])  # (steps, elements)
+        mom = np.array([s["moment"] for s in series])
+        depth = -0.5 * (pr.beam.xy[1:, 1] + pr.beam.xy[:-1, 1])
         out.append({"row": k + 1, "x": pr.row.x, "count": pr.row.count, "rake": pr.row.rake,
                     "max_compression": max(s["max_compression"] for s in series),
                     "max_tension": max(0.0, -min(s["min_compression"] for s in series)),
-                    "max_bending_moment": max(s["max_abs_moment"] for s in series)})
+                    "max_bending_moment": max(s["max_abs_moment"] for s in series),
+                    "envelope": {"depth": depth.tolist(),
+                                 "compression_max": comp.max(axis=0).tolist(),
+                                 "compression_min": comp.min(axis=0).tolist(),
+                                 "moment_max": mom.max(axis=0).tolist(),
+                                 "moment_min": mom.min(axis=0).tolist()}})
     return out
 
 

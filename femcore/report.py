@@ -150,22 +150,25 @@ def _curve_figure(plt, result: Result, dynamic: dict | None):
 
 
 def _piles_figure(plt, result: Result):
-    built = result.built
-    u = result.pushover.u
+    """Envelopes over the whole pushover (per pile): axial force and bending moment."""
     fig, (a1, a2) = plt.subplots(1, 2, figsize=(10, 5.5), sharey=True)
     cmap = plt.get_cmap("viridis")
-    for k, pr in enumerate(built.rows):
-        axial, moments = pr.beam.section_forces(u[pr.beam.element_dofs])
-        per = built.slice_length / pr.row.count
-        depth = -0.5 * (pr.beam.xy[1:, 1] + pr.beam.xy[:-1, 1])
-        colour = cmap(k / max(len(built.rows) - 1, 1))
-        a1.plot(-axial * per, depth, color=colour, lw=1, label=f"x = {pr.row.x:.1f} m")
-        a2.plot(moments.mean(axis=1) * per, depth, color=colour, lw=1)
+    rows = [p for p in result.piles if "envelope" in p]
+    for k, p in enumerate(rows):
+        env = p["envelope"]
+        colour = cmap(k / max(len(rows) - 1, 1))
+        label = f"x = {p['x']:.1f} m ({p['count']:g} piles)"
+        a1.fill_betweenx(env["depth"], env["compression_min"], env["compression_max"],
+                         color=colour, alpha=0.35, lw=0)
+        a1.plot(env["compression_max"], env["depth"], color=colour, lw=0.8, label=label)
+        a2.fill_betweenx(env["depth"], env["moment_min"], env["moment_max"], color=colour,
+                         alpha=0.35, lw=0)
+    a1.axvline(0.0, color=_MUTED, lw=0.8)
     a1.invert_yaxis()
     a1.set_xlabel("axial force per pile (kN, compression +)")
     a2.set_xlabel("bending moment per pile (kNm)")
     a1.set_ylabel("depth (m)")
-    a1.set_title("Pile forces at the end of the pushover", loc="left", color=_INK)
+    a1.set_title("Pile force envelopes over the pushover, per row", loc="left", color=_INK)
     a1.legend(fontsize=6, frameon=False)
     return fig
 
