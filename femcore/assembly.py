@@ -72,10 +72,13 @@ def element_stiffness(geom: CellGeometry, D: NDArray[np.float64]) -> NDArray[np.
     ``D`` is ``(c, q, 4, 4)`` or broadcastable to it (e.g. ``(4, 4)`` for a uniform material).
     Two batched matrix products; the (q, k) axes are contracted in one BLAS call per cell.
     """
-    B = geom.B  # (c, q, 4, i)
-    DB = np.matmul(D, B)  # (c, q, 4, i)
+    rows = geom.active_rows  # (xx, yy, xy) in plane strain: B_zz is zero there
+    B = geom.B_active  # (c, q, k', i)
+    if rows.size < 4:
+        D = np.asarray(D)[..., rows[:, None], rows[None, :]]  # (..., k', k')
+    DB = np.matmul(D, B)  # (c, q, k', i)
     n_c, n_q, n_k, n_i = B.shape
-    return np.matmul(geom.BtdV, DB.reshape(n_c, n_q * n_k, n_i))  # (c, i, i)
+    return np.matmul(geom.BtdV_active, DB.reshape(n_c, n_q * n_k, n_i))  # (c, i, i)
 
 
 def element_internal_force(geom: CellGeometry, stress: NDArray[np.float64]) -> NDArray[np.float64]:

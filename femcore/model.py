@@ -150,7 +150,8 @@ class Model:
         """Internal force, tangent (CSR, shared pattern) and trial states at displacement ``u``.
 
         ``tangent``: True builds the tangent, False skips it, ``"deferred"`` returns a function
-        that builds it on demand (Newton needs no tangent once it has converged).
+        that builds it on demand (Newton needs no tangent once it has converged),
+        ``"elements"`` a function returning the element matrices of every block.
         """
         f_int = np.zeros(self.n_dofs)
         makers = []
@@ -162,11 +163,16 @@ class Model:
             trial.append(new_state)
         n_extra = self.n_dofs - 2 * self.mesh.n_nodes
 
+        def element_tangents():
+            return [*(m() for m in makers), np.zeros(n_extra)]
+
         def assemble_tangent():
-            return self.pattern.assemble([*(m() for m in makers), np.zeros(n_extra)])
+            return self.pattern.assemble(element_tangents())
 
         if tangent == "deferred":
             return f_int, assemble_tangent, trial
+        if tangent == "elements":  # for ConstraintMap.reduced_from_elements
+            return f_int, element_tangents, trial
         return f_int, (assemble_tangent() if tangent else None), trial
 
     def solve_linear(

@@ -104,11 +104,12 @@ def residual_callback(model: Model, cmap: ConstraintMap, f_ext: NDArray[np.float
 
     def residual(u_free):
         u = cmap.expand(u_free)
-        f_int, make_K, trial = model.evaluate(u, states, tangent="deferred")
+        f_int, element_tangents, trial = model.evaluate(u, states, tangent="elements")
         r_full = f_int - f_ext
         generalized = cmap.generalized(r_full)
         scale = max(f_ext_red, float(np.linalg.norm(generalized[cmap.fixed])))
-        return (cmap.reduce_vector(r_full), lambda: cmap.reduce_matrix(make_K()), scale,
+        return (cmap.reduce_vector(r_full),
+                lambda: cmap.reduced_from_elements(model.pattern, element_tangents()), scale,
                 (u, trial, generalized))
 
     return residual
