@@ -49,9 +49,7 @@ def rocking_stiffness(element, h_near, components, width=40.0):
     model.add_block("soil", "soil", LinearElastic(E, NU))
     model.add_reference_point("footing", (0.0, 0.0))
     cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    cons.support_box(mesh)
     cons.tie_rigid(mesh.nodes_of("footing"), "footing", components)
     dm = model.dofmap
     theta = 1e-4
@@ -73,9 +71,7 @@ def punch_stiffness(L, components, element="T15", h_near=0.05):
     model.add_block("soil", "soil", LinearElastic(E, NU))
     model.add_reference_point("punch", (0.0, 0.0))
     cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    cons.support_box(mesh)
     nodes = mesh.nodes_of("footing")
     nodes = nodes[mesh.points[nodes, 0] > 0]  # the axis node keeps u_r = 0 from symmetry
     cons.tie_rigid(nodes, "punch", components)

@@ -99,9 +99,7 @@ def run_footing(f: Footing) -> FootingResult:
         model.add_element_block(contact)
     model.add_reference_point("footing", (0.0, 0.0))
     cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    cons.support_box(mesh)
     nodes = mesh.nodes_of("footing") if contact is None else contact.b_dofs[:, 0] // 2
     comps = (0, 1) if f.rough or contact is not None else (1,)
     if half and f.rough:

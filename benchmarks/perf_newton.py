@@ -39,9 +39,7 @@ def _problem(h_near: float, h_far: float):
     model.add_block("soil", "soil", Tresca(3000.0, 0.49, su))
     model.add_reference_point("f", (0.0, 0.0))
     cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    cons.support_box(mesh)
     nodes = mesh.nodes_of("footing")
     cons.tie_rigid(nodes[mesh.points[nodes, 0] > 0], "f", (0, 1))
     dm = model.dofmap

@@ -273,9 +273,7 @@ def build_model(design: Design) -> BuiltModel:
         model.add_element_block(_cap_contact(mesh, underside, new_index, design, soil_at))
     model.add_reference_point("ref", ref_xy)
     cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    cons.support_box(mesh)
     if axisym and split_nodes.size:  # copies of split nodes on the axis keep u_r = 0 too
         copies = new_index[split_nodes]
         cons.fix_nodes(copies[np.abs(mesh.points[copies, 0]) < 1e-9], (0,))

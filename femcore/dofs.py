@@ -120,6 +120,13 @@ class Constraints:
         for comp in components:
             self.fix(self.dofmap.node_dofs(nodes, comp), value)
 
+    def support_box(self, mesh) -> None:
+        """The usual soil-box supports: rollers on the ``left`` and ``right`` edges (u_x = 0)
+        and a fixed ``base``."""
+        self.fix_nodes(mesh.nodes_of("left"), (0,))
+        self.fix_nodes(mesh.nodes_of("right"), (0,))
+        self.fix_nodes(mesh.nodes_of("base"), (0, 1))
+
     def tie(self, slaves, masters, coefs) -> None:
         """Linear ties ``u[slave_i] = sum_j coefs[i, j] u[masters[i, j]]``.
 

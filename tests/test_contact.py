@@ -61,9 +61,7 @@ def test_axisymmetric_shaft_capacity():
         np.full(m, 1e9)))
     model.add_reference_point("head", (0.0, 0.0))
     cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    cons.support_box(mesh)
     pile = np.unique(mesh.cells[mesh.cell_sets["cap"]])
     on_axis = pile[np.abs(mesh.points[pile, 0]) < 1e-9]
     cons.fix_nodes(on_axis[on_axis >= new_index.size], (0,))  # copies on the axis

@@ -129,9 +129,7 @@ def test_mirror_invariance(element):
         model.add_block("top", "layer_1", LinearElastic(E, NU, E_gradient=500.0))
         model.add_block("deep", "layer_2", LinearElastic(3 * E, 0.25))
         cons = model.constraints()
-        cons.fix_nodes(m.nodes_of("left"), (0,))
-        cons.fix_nodes(m.nodes_of("right"), (0,))
-        cons.fix_nodes(m.nodes_of("base"), (0, 1))
+        cons.support_box(m)
         f = edge_traction(m, model.dofmap, m.edge_sets["footing"], np.array([0.4 * sx, -1.0]))
         sol = model.solve_linear(cons.build(), f)
         geom = model.blocks[0].geom

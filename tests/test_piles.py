@@ -166,9 +166,7 @@ def test_randolph_wroth_axial_head_stiffness(L_r0, ref):
     model.add_block("pile", "cap", LinearElastic(1000 * G, 0.3))
     model.add_reference_point("head", (0.0, 0.0))
     cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    cons.support_box(mesh)
     pile_nodes = np.unique(mesh.cells[mesh.cell_sets["cap"]])
     cons.tie_rigid(pile_nodes[np.abs(mesh.points[pile_nodes, 1]) < 1e-9], "head", (1,))
     dm = model.dofmap

@@ -67,9 +67,7 @@ def test_same_displacements_as_scikit_fem():
     model = Model(mesh)
     model.add_block("soil", "soil", LinearElastic(E, nu))
     cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("left"), (0,))
-    cons.fix_nodes(mesh.nodes_of("right"), (0,))
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
+    cons.support_box(mesh)
     from femcore.loads import body_force
 
     geom = model.blocks[0].geom
