@@ -88,14 +88,16 @@ def _model_figure(plt, result: Result, deformed: bool = False):
             poly = pts[mesh.cells[b.cells][:, [0, 1, 2]]]
             colour = "#b8bec6" if b.name == "cap" else _LAYER_COLOURS[i % len(_LAYER_COLOURS)]
             ax.add_collection(PolyCollection(poly, facecolors=colour, edgecolors="white",
-                                             linewidths=0.25, label=layer_names[i]))
+                                             linewidths=0.25, label=layer_names[i],
+                                             rasterized=True))
         if deformed:
             for b, st in zip(model.blocks, result.pushover.states, strict=True):
                 if isinstance(b, SolidBlock) and b.name != "cap":
                     xq = b.geom.x + scale * np.einsum(
                         "qa,cad->cqd", b.geom.N, u[: 2 * n].reshape(-1, 2)[mesh.cells[b.cells]])
                     y = st.yielded
-                    ax.scatter(xq[y][:, 0], xq[y][:, 1], s=1.5, color=_WARN, lw=0)
+                    ax.scatter(xq[y][:, 0], xq[y][:, 1], s=1.5, color=_WARN, lw=0,
+                               rasterized=True)
     for pr in built.rows:
         xy = pr.beam.xy + scale * u[pr.beam_dofs[:, :2]]
         ax.plot(xy[:, 0], xy[:, 1], color=_INK, lw=1.4)
