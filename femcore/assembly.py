@@ -66,19 +66,26 @@ def assemble_vector(
     )
 
 
-def element_stiffness(geom: CellGeometry, D: NDArray[np.float64]) -> NDArray[np.float64]:
+def element_stiffness(geom: CellGeometry, D: NDArray[np.float64],
+                      cells: NDArray[np.int64] | None = None) -> NDArray[np.float64]:
     """``K_e = sum_q B^T D B dV`` for all cells, ``(c, i, i)``.
 
     ``D`` is ``(c, q, 4, 4)`` or broadcastable to it (e.g. ``(4, 4)`` for a uniform material).
     Two batched matrix products; the (q, k) axes are contracted in one BLAS call per cell.
+    With ``cells``, only those cells (``D`` then holds all cells, or just those).
     """
     rows = geom.active_rows  # (xx, yy, xy) in plane strain: B_zz is zero there
-    B = geom.B_active  # (c, q, k', i)
+    B, BtdV = geom.B_active, geom.BtdV_active  # (c, q, k', i), (c, i, q*k')
+    D = np.asarray(D)
+    if cells is not None:
+        B, BtdV = B[cells], BtdV[cells]
+        if D.ndim == 4 and D.shape[0] == geom.n_cells:
+            D = D[cells]
     if rows.size < 4:
-        D = np.asarray(D)[..., rows[:, None], rows[None, :]]  # (..., k', k')
+        D = D[..., rows[:, None], rows[None, :]]  # (..., k', k')
     DB = np.matmul(D, B)  # (c, q, k', i)
     n_c, n_q, n_k, n_i = B.shape
-    return np.matmul(geom.BtdV_active, DB.reshape(n_c, n_q * n_k, n_i))  # (c, i, i)
+    return np.matmul(BtdV, DB.reshape(n_c, n_q * n_k, n_i))  # (c, i, i)
 
 
 def element_internal_force(geom: CellGeometry, stress: NDArray[np.float64]) -> NDArray[np.float64]:

@@ -51,17 +51,36 @@ class SolidBlock:
     geom: CellGeometry
     element_dofs: NDArray[np.int64]
     unit_weight: float = 0.0
+    _K_elastic: NDArray[np.float64] | None = field(default=None, init=False, repr=False)
 
     def initial_state(self) -> State:
         return self.material.initial_state(self.geom.x)
 
     def evaluate(self, u_e: NDArray[np.float64], state: State):
         """Element forces ``(c, i)``, a function giving the tangents ``(c, i, i)``, the trial
-        state. (All blocks share this interface; tangents are built only when asked for.)"""
+        state. (All blocks share this interface; tangents are built only when asked for.)
+
+        Cells without a yielded point have their elastic stiffness, which never changes; it
+        is computed once and only the cells with yielded points are integrated again.
+        """
         strain = element_strain(self.geom, u_e)  # (c, q, 4)
         stress, D, trial = self.material.update(strain, state)
         f_e = element_internal_force(self.geom, stress)
-        return f_e, lambda: element_stiffness(self.geom, D), trial
+        return f_e, lambda: self._tangent(D, state, trial), trial
+
+    def _tangent(self, D, state: State, trial: State) -> NDArray[np.float64]:
+        elastic = getattr(self.material, "elastic_tangent", None)
+        if elastic is None:
+            return element_stiffness(self.geom, D)
+        plastic = np.flatnonzero(trial.yielded.any(axis=1))
+        if plastic.size > 0.5 * self.geom.n_cells:
+            return element_stiffness(self.geom, D)
+        if self._K_elastic is None:
+            self._K_elastic = element_stiffness(self.geom, elastic(state))
+        K = self._K_elastic.copy()
+        if plastic.size:
+            K[plastic] = element_stiffness(self.geom, D, plastic)
+        return K
 
 
 @dataclass

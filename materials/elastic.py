@@ -77,6 +77,9 @@ class LinearElastic:
             return np.broadcast_to(elastic_matrix(self.E, self.nu), (*E.shape, 4, 4))
         return elastic_matrix(E, np.full_like(E, self.nu))
 
+    def elastic_tangent(self, state: State) -> NDArray[np.float64]:
+        return self.tangent(state)
+
     def update(self, strain: NDArray[np.float64], state_n: State):
         D = self.tangent(state_n)  # (c, q, 4, 4)
         stress = state_n.stress + np.einsum("cqkl,cql->cqk", D, strain - state_n.strain)
