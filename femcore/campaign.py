@@ -32,6 +32,7 @@ diverged, invalid_input, timeout, error.
 from __future__ import annotations
 
 import ast
+import functools
 import hashlib
 import json
 import math
@@ -325,7 +326,9 @@ def run_sample(design_data: dict, time_limit: float, retries: int) -> dict:
     return rec
 
 
-def _provenance(design_data: dict) -> dict:
+@functools.lru_cache(maxsize=1)
+def _versions() -> tuple[str, str | None, str]:
+    """tiltfe version, git hash of the source tree (None outside a checkout), gmsh version."""
     import gmsh
 
     from . import __version__
@@ -335,8 +338,13 @@ def _provenance(design_data: dict) -> dict:
                              text=True, cwd=Path(__file__).parent, timeout=5).stdout.strip()
     except Exception:  # pragma: no cover - no git
         git = ""
+    return __version__, git or None, gmsh.__version__
+
+
+def _provenance(design_data: dict) -> dict:
+    version, git, gmsh_version = _versions()
     an = design_data.get("analysis", {})
-    return {"tiltfe": __version__, "git": git or None, "gmsh": gmsh.__version__,
+    return {"tiltfe": version, "git": git, "gmsh": gmsh_version,
             "mesh": an.get("mesh", "standard"), "element": an.get("element", "T15"),
             "support": an.get("support", "continuum")}
 
