@@ -101,6 +101,8 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
                      settings=stage_cfg).run(states0=states)
     if res_w.status != "ok":
         return _failed(built, "weight stage", res_w, t0)
+    if loading.control == "settlement":  # axisymmetric: the settlement drives the load
+        return _settlement_pushover(built, res_w, f_weight, t0, t1, progress, settings)
     # ---- stage 3: vertical load (and held horizontal load under rotation control)
     f_v = f_weight.copy()
     f_v[W] -= loading.vertical / L
@@ -111,9 +113,6 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     if res_v.status != "ok":
         return _failed(built, "vertical load stage", res_v, t0)
     t2 = time.perf_counter()
-
-    if loading.control == "settlement":
-        return _settlement_pushover(built, res_w, f_weight, t0, t1, progress, settings)
 
     # ---- stage 4: pushover
     cons = built.constraints
