@@ -7,5 +7,19 @@ from .model import Model
 
 __version__ = "0.1.0"
 
-__all__ = ["Analysis", "CellGeometry", "cell_geometry", "ConstraintError", "ConstraintMap",
+__all__ = ["run_design", "Result", "Analysis", "CellGeometry", "cell_geometry", "ConstraintError", "ConstraintMap",
            "Constraints", "DofMap", "Mesh", "MeshError", "Model", "__version__"]
+
+
+def __getattr__(name: str):
+    """``femcore.run_design`` / ``femcore.Result`` / ``femcore.load_design``, imported on first
+    use (keeps ``tiltfe --help`` fast)."""
+    if name in ("run_design", "Result"):
+        from . import analysis
+
+        return getattr(analysis, name)
+    if name in ("load_design", "demo_design"):
+        from . import design
+
+        return getattr(design, name)
+    raise AttributeError(f"module 'femcore' has no attribute {name!r}")
