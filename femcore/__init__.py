@@ -7,8 +7,9 @@ from .model import Model
 
 __version__ = "0.1.0"
 
-__all__ = ["run_design", "Result", "Analysis", "CellGeometry", "cell_geometry", "ConstraintError", "ConstraintMap",
-           "Constraints", "DofMap", "Mesh", "MeshError", "Model", "__version__"]
+__all__ = ["run_design", "Result", "load_design", "demo_design", "Analysis", "CellGeometry",
+           "cell_geometry", "ConstraintError", "ConstraintMap", "Constraints", "DofMap", "Mesh",
+           "MeshError", "Model", "__version__"]
 
 
 def __getattr__(name: str):
