@@ -97,14 +97,20 @@ def test_bincount_assembly_equals_coo_sum():
     assert np.sum(np.abs(ev) < 1e-9 * ev.max()) == 3
 
 
-def test_reduced_matrix_and_rigid_tie():
-    mesh = layered_domain(10, 5, footing=(-1, 1), h=1.0, h_near=0.3, element="T6")
+def _tied_model(element: str):
+    """Soil box with a footing tied rigidly to a reference point off its centre."""
+    mesh = layered_domain(10, 5, footing=(-1, 1), h=1.0, h_near=0.3, element=element)
     model = Model(mesh)
     model.add_block("soil", "soil", LinearElastic(1e4, 0.3))
     model.add_reference_point("ref", (0.2, 0.5))
     cons = model.constraints()
     cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
     cons.tie_rigid(mesh.nodes_of("footing"), "ref")
+    return mesh, model, cons
+
+
+def test_reduced_matrix_and_rigid_tie():
+    mesh, model, cons = _tied_model("T6")
     cmap = cons.build()
     K = model.evaluate(np.zeros(model.n_dofs), model.initial_states())[1]
     Kr = cmap.reduce_matrix(K)
@@ -161,13 +167,7 @@ def test_vtu_round_trip(tmp_path):
 
 def test_fused_reduction_equals_assemble_then_reduce():
     # T^T K T from element matrices in one scatter equals assembling K first (to round-off)
-    mesh = layered_domain(10, 5, footing=(-1, 1), h=1.0, h_near=0.3, element="T15")
-    model = Model(mesh)
-    model.add_block("soil", "soil", LinearElastic(1e4, 0.3))
-    model.add_reference_point("ref", (0.2, 0.5))
-    cons = model.constraints()
-    cons.fix_nodes(mesh.nodes_of("base"), (0, 1))
-    cons.tie_rigid(mesh.nodes_of("footing"), "ref")
+    _, model, cons = _tied_model("T15")
     cmap = cons.build()
     f, elements, _ = model.evaluate(np.zeros(model.n_dofs), model.initial_states(), "elements")
     a = cmap.reduced_from_elements(model.pattern, elements())
