@@ -90,9 +90,11 @@ def element_stiffness(geom: CellGeometry, D: NDArray[np.float64],
 
 def element_internal_force(geom: CellGeometry, stress: NDArray[np.float64]) -> NDArray[np.float64]:
     """``f_e = sum_q B^T sigma dV``, ``(c, i)``: one batched product with the cached
-    ``(B dV)^T``."""
+    ``(B dV)^T`` over the non-zero strain rows (sigma_zz does no work in plane strain)."""
     n_c, n_q = geom.dV.shape
-    return np.matmul(geom.BtdV, stress.reshape(n_c, n_q * 4, 1))[..., 0]
+    rows = geom.active_rows
+    s = stress if rows.size == 4 else stress[:, :, rows]  # (c, q, k')
+    return np.matmul(geom.BtdV_active, s.reshape(n_c, n_q * rows.size, 1))[..., 0]
 
 
 def element_strain(geom: CellGeometry, u_e: NDArray[np.float64]) -> NDArray[np.float64]:

@@ -94,9 +94,6 @@ class DofMap:
         """DOF of a reference point: component 0 = u_x, 1 = u_y, 2 = theta (clockwise)."""
         return self._first(name) + component
 
-    def point_xy(self, name: str) -> NDArray[np.float64]:
-        return self.groups[name]
-
 
 class Constraints:
     """Collects Dirichlet conditions and ties, then builds a :class:`ConstraintMap`."""
@@ -236,10 +233,6 @@ class ConstraintMap:
     @property
     def n_free(self) -> int:
         return self.free.size
-
-    @property
-    def n_full(self) -> int:
-        return self.T.shape[0]
 
     def set_prescribed(self, values) -> None:
         """New values of the prescribed DOFs (same order as at build)."""

@@ -63,13 +63,6 @@ class CellGeometry:
         return self.dV.shape[0]
 
     @cached_property
-    def BtdV(self) -> NDArray[np.float64]:
-        """``(B dV)^T`` with (q, k) flattened, ``(c, i, q*4)``, contiguous; cached for assembly."""
-        n_c, n_q, n_k, n_i = self.B.shape
-        BW = (self.B * self.dV[:, :, None, None]).reshape(n_c, n_q * n_k, n_i)
-        return np.ascontiguousarray(BW.transpose(0, 2, 1))
-
-    @cached_property
     def active_rows(self) -> NDArray[np.int64]:
         """Strain rows that are not identically zero: (xx, yy, xy) in plane strain, all four in
         axisymmetry. The tangent needs only these (a quarter fewer operations in plane
@@ -83,7 +76,8 @@ class CellGeometry:
 
     @cached_property
     def BtdV_active(self) -> NDArray[np.float64]:
-        """``(B dV)^T`` over the active rows, ``(c, i, q*k')``, contiguous."""
+        """``(B dV)^T`` over the active rows, ``(c, i, q*k')``, contiguous; cached for the
+        internal force and the tangent."""
         Ba = self.B_active
         n_c, n_q, n_k, n_i = Ba.shape
         BW = (Ba * self.dV[:, :, None, None]).reshape(n_c, n_q * n_k, n_i)
