@@ -119,7 +119,7 @@ def thick_cylinder(element: str, h: float, a: float = 1.0, b: float = 2.0,
     prescribed (tangential zero by symmetry). Returns the pushover result and the inner
     pressure (kPa) along it."""
     from femcore import Model
-    from femcore.pushover import Pushover, PushoverSettings
+    from femcore.stepping import Stepper, StepSettings
     from meshing import annulus_sector
 
     mesh = annulus_sector(a, b, h, element)
@@ -139,8 +139,8 @@ def thick_cylinder(element: str, h: float, a: float = 1.0, b: float = 2.0,
             ctrl.append(2 * node + 1)
             inc.append(delta * np.sin(t))
     cons.fix(ctrl, 0.0)
-    res = Pushover(model, cons.build(), np.zeros(model.n_dofs), ctrl, inc,
-                   settings=PushoverSettings(initial_step=0.05)).run()
+    res = Stepper(model, cons.build(), np.zeros(model.n_dofs), ctrl, inc,
+                   settings=StepSettings(initial_step=0.05)).run()
     pressure = res.force @ (np.array(inc) / delta) / (a * np.pi / 2)
     return res, pressure
 
@@ -236,7 +236,7 @@ def lateral_disc_pressure(element: str = "T15", h_near: float = 0.05,
     """P_u / (s_u D) of a rough rigid disc pushed through a plane slice of Tresca soil
     (symmetric half model, disc tied rigidly to a reference point)."""
     from femcore import Model
-    from femcore.pushover import Pushover, PushoverSettings
+    from femcore.stepping import Stepper, StepSettings
     from meshing.builders import disc_in_square
 
     D = 1.0
@@ -254,8 +254,8 @@ def lateral_disc_pressure(element: str = "T15", h_near: float = 0.05,
     dm = model.dofmap
     U, W, TH = (dm.ref_dof("disc", k) for k in range(3))
     cons.fix([W, TH], 0.0)
-    res = Pushover(model, cons.build(extra_fixed={U: 0.0}), np.zeros(model.n_dofs), [U],
-                   [0.2 * D], settings=PushoverSettings(initial_step=0.02, max_step=0.1)).run()
+    res = Stepper(model, cons.build(extra_fixed={U: 0.0}), np.zeros(model.n_dofs), [U],
+                   [0.2 * D], settings=StepSettings(initial_step=0.02, max_step=0.1)).run()
     p = 2 * res.force[:, 0] / (SU * D)  # the full disc carries twice the half model
     return float(p[-1]), {"n_dofs": model.n_dofs, "increments": len(res.records),
                           "iterations": int(res.iterations.sum()), "status": res.status,

@@ -14,10 +14,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from femcore import Model
+from femcore.initial_stress import Layer, Profile, apply_k0, profile_loads
 from femcore.interfaces import ContactBlock, contact_pairs
 from femcore.loads import edge_traction
-from femcore.pushover import Pushover, PushoverResult, PushoverSettings
-from femcore.stages import Layer, Profile, apply_k0, profile_loads
+from femcore.stepping import Stepper, StepResult, StepSettings
 from materials.base import MaterialModel
 from meshing import layered_domain
 
@@ -49,7 +49,7 @@ class Footing:
     gamma: float = 0.0
     K0: float = 1.0
     target: float = 0.05  # settlement / B, or rotation in rad
-    settings: PushoverSettings = field(default_factory=PushoverSettings)
+    settings: StepSettings = field(default_factory=StepSettings)
     vertical: float = 0.0  # kN/m held during a rotation-controlled run
     contact: bool = False  # a no-tension contact interface under the footing
     contact_cohesion: float = 0.0  # kPa, shear strength of the contact while closed
@@ -62,7 +62,7 @@ class FootingResult:
     displacement: np.ndarray  # settlement (m) or rotation (rad)
     collapse: float  # plateau value (last point)
     plateau_change: float  # relative change over the last 15 % of the imposed displacement
-    pushover: PushoverResult
+    pushover: StepResult
     n_dofs: int
 
 
@@ -129,14 +129,14 @@ def run_footing(f: Footing) -> FootingResult:
     if f.vertical:
         f_v = f_ext.copy()
         f_v[W] -= f.vertical
-        res_v = Pushover(model, cons.build(extra_fixed={TH: 0.0}), f_ext, [], [],
-                         f_ext_end=f_v, settings=PushoverSettings(initial_step=0.25,
+        res_v = Stepper(model, cons.build(extra_fixed={TH: 0.0}), f_ext, [], [],
+                         f_ext_end=f_v, settings=StepSettings(initial_step=0.25,
                                                                   max_step=0.25)).run(
             states0=states)
         if res_v.status != "ok":
             raise RuntimeError(f"vertical load stage failed: {res_v.message}")
         f_ext, u0, states = f_v, res_v.u, res_v.states
-    po = Pushover(model, cmap, f_ext, [ctrl], [inc], settings=f.settings)
+    po = Stepper(model, cmap, f_ext, [ctrl], [inc], settings=f.settings)
     res = po.run(u0=u0, states0=states)
     force = res.force[:, 0]
     disp = np.abs(res.displacement[:, 0])

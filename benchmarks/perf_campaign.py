@@ -15,7 +15,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from femcore.campaign import Store, load_space, run_campaign, sample_space
+from femcore.workflows.campaign import Store, load_space, run_campaign, sample_space
 
 from ._script import script_main
 

@@ -12,8 +12,8 @@ from __future__ import annotations
 import time
 
 from femcore import linsolve
-from femcore.analysis import run_design
-from femcore.design import demo_design
+from femcore.foundation.design import demo_design
+from femcore.foundation.run import run_design
 
 from ._script import script_main
 

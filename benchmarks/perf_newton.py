@@ -23,7 +23,7 @@ from femcore.assembly import (
     element_strain,
 )
 from femcore.linsolve import solve
-from femcore.pushover import Pushover, PushoverSettings
+from femcore.stepping import Stepper, StepSettings
 from materials import Tresca
 from meshing import layered_domain
 
@@ -58,11 +58,11 @@ def _time(fn, repeat=3):
 def profile(h_near: float, h_far: float) -> dict:
     model, cmap, w = _problem(h_near, h_far)
     # settlement 1 % of B: about 70-80 % of the collapse load, a wide plastic zone
-    cfg = PushoverSettings(initial_step=0.25, max_step=0.25)
-    res = Pushover(model, cmap, np.zeros(model.n_dofs), [w], [-0.02], settings=cfg).run()
+    cfg = StepSettings(initial_step=0.25, max_step=0.25)
+    res = Stepper(model, cmap, np.zeros(model.n_dofs), [w], [-0.02], settings=cfg).run()
     states = res.states  # committed at the start of the timed increment
-    u = Pushover(model, cmap, np.zeros(model.n_dofs), [w], [-0.002],
-                 settings=PushoverSettings(initial_step=1.0, max_step=1.0)).run(
+    u = Stepper(model, cmap, np.zeros(model.n_dofs), [w], [-0.002],
+                 settings=StepSettings(initial_step=1.0, max_step=1.0)).run(
         u0=res.u, states0=states).u  # the converged end of that increment
     block, st = model.blocks[0], states[0]
     t = {}

@@ -23,7 +23,7 @@ import numpy as np
 from femcore import Mesh, Model
 from femcore.beams import BeamBlock
 from femcore.interfaces import SpringBlock
-from femcore.pushover import Pushover, PushoverSettings
+from femcore.stepping import Stepper, StepSettings
 
 __all__ = ["pile_on_springs", "hetenyi_long", "broms_short_fixed_clay"]
 
@@ -92,8 +92,8 @@ def broms_short_fixed_clay(su=20.0, D=0.5, length=5.0, n_el=100):
         length, EI=1e7, k_lat=1e7, n_el=n_el, EA=1e9, head="fixed",
         p_lim=lambda z: np.where(z >= 1.5 * D - 1e-9, 9 * su * D, 0.0))
     cmap = cons.build(extra_fixed={U: 0.0})
-    res = Pushover(model, cmap, np.zeros(model.n_dofs), [U], [0.01],
-                   settings=PushoverSettings(initial_step=0.05, max_step=0.1)).run()
+    res = Stepper(model, cmap, np.zeros(model.n_dofs), [U], [0.01],
+                   settings=StepSettings(initial_step=0.05, max_step=0.1)).run()
     return float(res.force[-1, 0]), 9 * su * D * (length - 1.5 * D)
 
 

@@ -48,8 +48,8 @@ def _perf_solver(quick: bool) -> tuple[float, dict]:
 def _perf_demo(config: str):
     def run(quick: bool) -> tuple[float, dict]:
         from femcore import linsolve
-        from femcore.analysis import run_design
-        from femcore.design import demo_design
+        from femcore.foundation.design import demo_design
+        from femcore.foundation.run import run_design
 
         cfg = {"springs": dict(support="springs"),
                "coarse_T6": dict(mesh="coarse", element="T6"),

@@ -20,7 +20,7 @@ from numpy.typing import NDArray
 
 from materials.springs import ContactState, SpringState, coulomb_update, epp_update
 
-from .kinematics import Analysis
+from .kinematics import Kinematics
 from .mesh import Mesh
 
 __all__ = ["SpringBlock", "ContactBlock", "contact_pairs"]
@@ -76,7 +76,7 @@ class SpringBlock:
 
 def contact_pairs(mesh: Mesh, edges: NDArray[np.int64], new_index: NDArray[np.int64],
                   normal_towards: NDArray[np.float64] | None = None,
-                  analysis: Analysis = Analysis.PLANE_STRAIN):
+                  analysis: Kinematics = Kinematics.PLANE_STRAIN):
     """Node pairs of a split surface with nodal (Newton-Cotes) integration weights.
 
     ``edges (e, p+1)`` are the surface's edges on the original side; ``new_index`` maps each
@@ -97,7 +97,7 @@ def contact_pairs(mesh: Mesh, edges: NDArray[np.int64], new_index: NDArray[np.in
     tx = np.einsum("qa,ead->eqd", dN, X)  # (e, q, 2)
     jac = np.linalg.norm(tx, axis=-1)  # (e, q)
     ds = jac * rule.weights
-    if Analysis(analysis) is Analysis.AXISYMMETRIC:
+    if Kinematics(analysis) is Kinematics.AXISYMMETRIC:
         ds = ds * 2 * np.pi * np.einsum("qa,ea->eq", N, X[..., 0])
     w_e = np.einsum("qa,eq->ea", N, ds)  # (e, a) integral of N_a
     nodes = edges.ravel()

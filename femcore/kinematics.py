@@ -21,10 +21,10 @@ from .elements import ReferenceElement
 from .mesh import Mesh, MeshError
 from .quadrature import QuadratureRule, triangle_rule
 
-__all__ = ["Analysis", "CellGeometry", "cell_geometry", "default_rule"]
+__all__ = ["Kinematics", "CellGeometry", "cell_geometry", "default_rule"]
 
 
-class Analysis(str, enum.Enum):
+class Kinematics(str, enum.Enum):
     """Kinematic assumption of the 2D model."""
 
     PLANE_STRAIN = "plane_strain"
@@ -90,12 +90,12 @@ class CellGeometry:
 
 def cell_geometry(
     mesh: Mesh,
-    analysis: Analysis = Analysis.PLANE_STRAIN,
+    analysis: Kinematics = Kinematics.PLANE_STRAIN,
     rule: QuadratureRule | None = None,
     cells: NDArray[np.int64] | None = None,
 ) -> CellGeometry:
     """B matrices, volume weights and point coordinates for ``cells`` (default: all)."""
-    analysis = Analysis(analysis)
+    analysis = Kinematics(analysis)
     element = mesh.element
     rule = rule or default_rule(element)
     conn = mesh.cells if cells is None else mesh.cells[cells]  # (c, a)
@@ -127,7 +127,7 @@ def cell_geometry(
     B[:, :, 3, 0::2] = dN[..., 1]
     B[:, :, 3, 1::2] = dN[..., 0]
     dV = detJ * rule.weights[None, :]  # (c, q)
-    if analysis is Analysis.AXISYMMETRIC:
+    if analysis is Kinematics.AXISYMMETRIC:
         r = x_qp[..., 0]  # (c, q)
         if np.any(r <= 0.0):
             k = int(np.flatnonzero((r <= 0.0).any(axis=1))[0])

@@ -13,7 +13,7 @@ from numpy.typing import NDArray
 
 from .assembly import assemble_vector
 from .dofs import DofMap
-from .kinematics import Analysis, CellGeometry
+from .kinematics import CellGeometry, Kinematics
 from .mesh import Mesh, MeshError
 from .quadrature import line_rule
 
@@ -34,7 +34,7 @@ def body_force(
     return assemble_vector(dofmap.n_dofs, dofmap.cell_dofs(cells), f_e.reshape(len(f_e), -1))
 
 
-def edge_geometry(mesh: Mesh, edges: NDArray[np.int64], analysis: Analysis):
+def edge_geometry(mesh: Mesh, edges: NDArray[np.int64], analysis: Kinematics):
     """Quadrature on edges: N (q, a), x (e, q, 2), unit normal (e, q, 2) and weights ds (e, q).
 
     The normal points out of the mesh for boundary edges (decided from the adjacent cell).
@@ -54,7 +54,7 @@ def edge_geometry(mesh: Mesh, edges: NDArray[np.int64], analysis: Analysis):
     sign = np.sign(np.einsum("ed,ed->e", normal[:, 0], mid - centroid))
     normal = normal * sign[:, None, None]
     ds = jac * rule.weights[None, :]  # (e, q)
-    if Analysis(analysis) is Analysis.AXISYMMETRIC:
+    if Kinematics(analysis) is Kinematics.AXISYMMETRIC:
         ds = ds * 2.0 * np.pi * x[..., 0]
     return N, x, normal, ds
 
@@ -79,7 +79,7 @@ def _owner_cells(mesh: Mesh, edges: NDArray[np.int64]) -> NDArray[np.int64]:
 
 def edge_traction(
     mesh: Mesh, dofmap: DofMap, edges: NDArray[np.int64], traction: Traction,
-    analysis: Analysis = Analysis.PLANE_STRAIN,
+    analysis: Kinematics = Kinematics.PLANE_STRAIN,
 ) -> NDArray[np.float64]:
     """Global force of a traction (kPa) on edges: a vector ``(2,)`` or a function of ``x``."""
     N, x, _normal, ds = edge_geometry(mesh, edges, analysis)
@@ -90,7 +90,7 @@ def edge_traction(
 
 def edge_pressure(
     mesh: Mesh, dofmap: DofMap, edges: NDArray[np.int64], pressure: float,
-    analysis: Analysis = Analysis.PLANE_STRAIN,
+    analysis: Kinematics = Kinematics.PLANE_STRAIN,
 ) -> NDArray[np.float64]:
     """Global force of a normal pressure (kPa, positive pushing into the body) on boundary edges."""
     N, _x, normal, ds = edge_geometry(mesh, edges, analysis)

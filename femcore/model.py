@@ -23,7 +23,7 @@ from .assembly import (
     element_strain,
 )
 from .dofs import ConstraintMap, Constraints, DofMap
-from .kinematics import Analysis, CellGeometry, cell_geometry
+from .kinematics import CellGeometry, Kinematics, cell_geometry
 from .linsolve import solve
 from .loads import body_force
 from .mesh import Mesh
@@ -96,9 +96,9 @@ class LinearSolution:
 class Model:
     """Mesh + analysis + DOFs + blocks; builds the global CSR pattern once."""
 
-    def __init__(self, mesh: Mesh, analysis: Analysis = Analysis.PLANE_STRAIN) -> None:
+    def __init__(self, mesh: Mesh, analysis: Kinematics = Kinematics.PLANE_STRAIN) -> None:
         self.mesh = mesh
-        self.analysis = Analysis(analysis)
+        self.analysis = Kinematics(analysis)
         self.dofmap = DofMap(mesh.n_nodes)
         self.blocks: list = []  # SolidBlock, BeamBlock, SpringBlock: evaluate(u_e, state)
         self._pattern: SparsePattern | None = None

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from .kinematics import Analysis
+from .kinematics import Kinematics
 from .mesh import Mesh
 
 __all__ = ["locate", "displacement_at", "strain_at"]
@@ -55,7 +55,7 @@ def displacement_at(mesh: Mesh, u: NDArray[np.float64], points) -> NDArray[np.fl
     return np.einsum("na,nad->nd", N, U)
 
 
-def strain_at(mesh: Mesh, analysis: Analysis, u: NDArray[np.float64], points):
+def strain_at(mesh: Mesh, analysis: Kinematics, u: NDArray[np.float64], points):
     """Strain ``(n, 4)`` [xx, yy, zz|thetatheta, xy] at points."""
     pts = np.atleast_2d(np.asarray(points, dtype=np.float64))
     cell, xi = locate(mesh, pts)
@@ -71,6 +71,6 @@ def strain_at(mesh: Mesh, analysis: Analysis, u: NDArray[np.float64], points):
     eps[:, 0] = grad[:, 0, 0]
     eps[:, 1] = grad[:, 1, 1]
     eps[:, 3] = grad[:, 0, 1] + grad[:, 1, 0]
-    if Analysis(analysis) is Analysis.AXISYMMETRIC:
+    if Kinematics(analysis) is Kinematics.AXISYMMETRIC:
         eps[:, 2] = np.einsum("na,na->n", N, U[..., 0]) / pts[:, 0]
     return eps

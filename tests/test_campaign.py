@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from femcore.campaign import (
+from femcore.workflows.campaign import (
     SpaceError,
     Store,
     evaluate_formula,
@@ -202,7 +202,7 @@ def test_sigkill_then_resume_loses_nothing(tmp_path):
 
 
 def test_campaign_cli_status_and_bad_space(tmp_path, capsys):
-    from femcore import cli
+    from femcore.workflows import cli
 
     space = _space(tmp_path, size=2, support="springs")
     store = tmp_path / "cli.sqlite"

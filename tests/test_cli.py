@@ -19,10 +19,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from femcore import cli
-from femcore.analysis import run_design
-from femcore.design import Design, load_design
-from femcore.results import result_file_model
+from femcore.foundation.design import Design, load_design
+from femcore.foundation.run import run_design
+from femcore.workflows import cli
+from femcore.workflows.results import result_file_model
 
 ROOT = Path(__file__).resolve().parents[1]
 SMALL = ROOT / "examples" / "small_group_springs.toml"
@@ -96,7 +96,7 @@ def test_help_is_fast_and_module_entry_point():
     res = subprocess.run([sys.executable, "-m", "femcore", "--help"], capture_output=True,
                          text=True, timeout=60)
     assert res.returncode == 0 and "tiltfe" in res.stdout
-    res = subprocess.run([sys.executable, "-c", "import femcore.cli, sys; "
+    res = subprocess.run([sys.executable, "-c", "import femcore.workflows.cli, sys; "
                           "print('matplotlib' in sys.modules, 'gmsh' in sys.modules)"],
                          capture_output=True, text=True, timeout=60)
     assert res.stdout.split() == ["False", "False"]  # imported lazily
@@ -172,7 +172,7 @@ def test_malformed_and_missing_files(tmp_path, capsys):
 
 
 def test_demo_file_equals_builtin_demo():
-    from femcore.design import demo_design
+    from femcore.foundation.design import demo_design
 
     file_design = load_design(DEMO)
     builtin = demo_design()

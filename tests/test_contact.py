@@ -7,7 +7,7 @@ import pytest
 from benchmarks.footing import Footing, run_footing
 from femcore import Model
 from femcore.interfaces import ContactBlock, contact_pairs
-from femcore.pushover import Pushover, PushoverSettings
+from femcore.stepping import Stepper, StepSettings
 from materials import LinearElastic, Tresca
 from materials.springs import ContactState, coulomb_update
 from meshing import layered_domain
@@ -69,8 +69,8 @@ def test_axisymmetric_shaft_capacity():
     dm = model.dofmap
     W = dm.ref_dof("head", 1)
     cons.fix([dm.ref_dof("head", 0), dm.ref_dof("head", 2)], 0.0)
-    res = Pushover(model, cons.build(extra_fixed={W: 0.0}), np.zeros(model.n_dofs), [W],
-                   [-0.02], settings=PushoverSettings(initial_step=0.05, max_step=0.1)).run()
+    res = Stepper(model, cons.build(extra_fixed={W: 0.0}), np.zeros(model.n_dofs), [W],
+                   [-0.02], settings=StepSettings(initial_step=0.05, max_step=0.1)).run()
     assert res.status == "ok"
     assert -res.force[-1, 0] == pytest.approx(2 * np.pi * r0 * L * alpha * su, rel=0.01)
 

@@ -10,10 +10,7 @@ import numpy as np
 import pytest
 
 from femcore import Model
-from femcore.loads import edge_traction
-from femcore.newton import ConvergenceError, newton
-from femcore.pushover import Pushover, PushoverSettings, residual_callback
-from femcore.stages import (
+from femcore.initial_stress import (
     Layer,
     Profile,
     apply_k0,
@@ -22,6 +19,9 @@ from femcore.stages import (
     k0_stresses,
     profile_loads,
 )
+from femcore.loads import edge_traction
+from femcore.newton import ConvergenceError, newton
+from femcore.stepping import Stepper, StepSettings, residual_callback
 from materials import LinearElastic, MohrCoulomb, Tresca
 from meshing import layered_domain
 
@@ -63,8 +63,8 @@ def test_pushover_cuts_back_and_reports_divergence():
     model, cmap, f = _strip(1.5)
     right = model.mesh.nodes_of("right")
     dof = int(2 * right[0])  # a roller node: its u_x is prescribed (zero) and "driven"
-    po = Pushover(model, cmap, f, [dof], [0.0],
-                  settings=PushoverSettings(initial_step=0.1, min_step=0.02, max_iterations=8))
+    po = Stepper(model, cmap, f, [dof], [0.0],
+                  settings=StepSettings(initial_step=0.1, min_step=0.02, max_iterations=8))
     res = po.run()
     assert res.status == "diverged"
     assert res.cutbacks >= 3 and "no convergence" in res.message

@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 from conftest import distort, nodal
 
-from femcore import Analysis, Model
+from femcore import Kinematics, Model
 from materials import LinearElastic, elastic_matrix
 from meshing import rectangle
 
@@ -48,4 +48,4 @@ def test_patch_distorted(element, analysis):
         eps = np.array([2e-3, 3e-3, 2e-3, 0.0])
     sig = elastic_matrix(mat.E, mat.nu) @ eps
     assert np.allclose(sol.stress[0], sig, rtol=0, atol=1e-9 * np.abs(sig).max())
-    assert model.analysis is Analysis(analysis)
+    assert model.analysis is Kinematics(analysis)

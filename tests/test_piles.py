@@ -9,13 +9,13 @@ import pytest
 
 from benchmarks.piles import broms_short_fixed_clay, hetenyi_long, pile_on_springs
 from femcore import Mesh, Model
-from femcore.analysis import run_design
 from femcore.beams import BeamBlock
-from femcore.design import demo_design
+from femcore.foundation.design import demo_design
+from femcore.foundation.keypoints import analyse_curve
+from femcore.foundation.layout import Ring, default_slice_length, lump_rings
+from femcore.foundation.run import run_design
 from femcore.interfaces import SpringBlock
-from femcore.keypoints import analyse_curve
-from femcore.layout import Ring, default_slice_length, lump_rings
-from femcore.pushover import Pushover, PushoverSettings
+from femcore.stepping import Stepper, StepSettings
 from materials import LinearElastic
 from meshing import layered_domain
 
@@ -80,11 +80,11 @@ def rigid_cap(xs, k, Q, V=0.0, theta_max=0.01):
     f = np.zeros(model.n_dofs)
     f[W] = -V
     free = cons.build(extra_fixed={U: 0.0})  # pinned heads: no horizontal resistance
-    res_v = Pushover(model, free, np.zeros(model.n_dofs), [], [], f_ext_end=f,
-                     settings=PushoverSettings(initial_step=1.0, max_step=1.0)).run()
+    res_v = Stepper(model, free, np.zeros(model.n_dofs), [], [], f_ext_end=f,
+                     settings=StepSettings(initial_step=1.0, max_step=1.0)).run()
     cmap = cons.build(extra_fixed={TH: 0.0, U: 0.0})
-    res = Pushover(model, cmap, f, [TH], [theta_max], monitor_dofs=[W],
-                   settings=PushoverSettings(initial_step=0.01, max_step=0.05)).run(
+    res = Stepper(model, cmap, f, [TH], [theta_max], monitor_dofs=[W],
+                   settings=StepSettings(initial_step=0.01, max_step=0.05)).run(
         u0=res_v.u, states0=res_v.states)
     return model, res, res_v
 
@@ -131,8 +131,8 @@ def test_broms_long_free_head_max_moment():
         10.0, EI=2e5, k_lat=1e8, n_el=500, p_lim=lambda z: np.where(z >= 1.5 * D - 1e-9,
                                                                    9 * su * D, 0.0))
     cmap = cons.build(extra_fixed={U: 0.0})
-    res = Pushover(model, cmap, np.zeros(model.n_dofs), [U], [0.02],
-                   settings=PushoverSettings(initial_step=0.05, max_step=0.1)).run()
+    res = Stepper(model, cmap, np.zeros(model.n_dofs), [U], [0.02],
+                   settings=StepSettings(initial_step=0.05, max_step=0.1)).run()
     assert res.status == "ok"
     H = res.force[-1, 0]
     beam = model.blocks[0]
@@ -277,10 +277,10 @@ def test_axisymmetric_vertical_capacity_bounded_by_pile_resistances():
     """Axisymmetric smeared rings, cap without contact: the vertical load on the piled cap can
     never exceed the sum of the shaft and tip resistances of all piles (every load path runs
     through the interface springs) [D], and the response starts stiff and positive."""
-    from femcore.design import Analysis, Loading
+    from femcore.foundation.design import AnalysisSettings, Loading
 
     d = demo_design().model_copy(update={
-        "analysis": Analysis(geometry="axisymmetric", mesh="coarse", element="T6"),
+        "analysis": AnalysisSettings(geometry="axisymmetric", mesh="coarse", element="T6"),
         "loading": Loading(vertical=8400.0, control="settlement", settlement_max=0.1)})
     r = run_design(d)
     assert r.status in ("ok", "censored"), r.message
@@ -294,7 +294,7 @@ def test_axisymmetric_vertical_capacity_bounded_by_pile_resistances():
 def test_lever_with_long_arm_equals_rotation_control():
     """A lever arm h -> infinity makes H = M/h -> 0, so the lever-controlled curve tends to the
     rotation-controlled one with H = 0 (statics); at h = 1e4 m they agree to 1e-3 [D]."""
-    from femcore.design import Loading
+    from femcore.foundation.design import Loading
 
     base = demo_design(support="springs")
     lever = base.model_copy(update={"loading": Loading(vertical=8400.0, control="lever",

@@ -13,9 +13,9 @@ from pathlib import Path
 
 import numpy as np
 
-from .analysis import Result
-from .model import SolidBlock
-from .results import CAUTION
+from femcore.foundation.run import Result
+from femcore.model import SolidBlock
+from femcore.workflows.results import CAUTION
 
 __all__ = ["write_report"]
 

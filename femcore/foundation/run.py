@@ -16,13 +16,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import __version__
+from .. import __version__
+from ..initial_stress import apply_k0, profile_loads
+from ..model import SolidBlock
+from ..stepping import Stepper, StepRecord, StepResult, StepSettings
 from .build import BuiltModel, build_model
 from .design import Design, design_from_dict
 from .keypoints import KeyPoint, analyse_curve, rotation_at_moment
-from .model import SolidBlock
-from .pushover import Pushover, PushoverResult, PushoverSettings, StepRecord
-from .stages import apply_k0, profile_loads
 
 __all__ = ["Result", "run_design", "run_built"]
 
@@ -43,7 +43,7 @@ class Result:
     timings: dict
     design_name: str = ""
     built: BuiltModel | None = field(default=None, repr=False)
-    pushover: PushoverResult | None = field(default=None, repr=False)
+    pushover: StepResult | None = field(default=None, repr=False)
 
     def to_dict(self) -> dict:
         return {"status": self.status, "message": self.message, "design": self.design_name,
@@ -74,7 +74,7 @@ def _pile_observer(built: BuiltModel):
 
 
 def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None = None,
-              settings: PushoverSettings | None = None) -> Result:
+              settings: StepSettings | None = None) -> Result:
     t0 = time.perf_counter()
     design, model = built.design, built.model
     loading = design.loading
@@ -94,10 +94,10 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     else:
         f_weight[W] = -built.meta["cap_weight_kN_per_m"]
     f0, _, _ = model.evaluate(np.zeros(model.n_dofs), states, tangent=False)
-    stage_cfg = PushoverSettings(initial_step=0.5, max_step=0.5, min_step=1e-3,
+    stage_cfg = StepSettings(initial_step=0.5, max_step=0.5, min_step=1e-3,
                                  max_iterations=12, reuse_factorization=True)
     t1 = time.perf_counter()
-    res_w = Pushover(model, cmap_free, f0, [], [], f_ext_end=f_weight,
+    res_w = Stepper(model, cmap_free, f0, [], [], f_ext_end=f_weight,
                      settings=stage_cfg).run(states0=states)
     if res_w.status != "ok":
         return _failed(built, "weight stage", res_w, t0)
@@ -108,7 +108,7 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     f_v[W] -= loading.vertical / L
     if loading.control == "rotation":
         f_v[U] += loading.horizontal / L
-    res_v = Pushover(model, cmap_free, f_weight, [], [], f_ext_end=f_v,
+    res_v = Stepper(model, cmap_free, f_weight, [], [], f_ext_end=f_v,
                      settings=stage_cfg).run(u0=res_w.u, states0=res_w.states)
     if res_v.status != "ok":
         return _failed(built, "vertical load stage", res_v, t0)
@@ -127,13 +127,13 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     else:
         target = 1.6 * loading.rotation_max * h  # tip travel; stops on the rotation
         first = loading.initial_increment * h / target
-    cfg = settings or PushoverSettings(initial_step=first, min_step=min(first, 1e-4) / 8,
+    cfg = settings or StepSettings(initial_step=first, min_step=min(first, 1e-4) / 8,
                                        max_step=0.04, grow=1.6, reuse_factorization=True)
 
     def stop(rec: StepRecord) -> bool:
         return rec.monitor[2] - theta0 >= loading.rotation_max * (1 - 1e-9)
 
-    po = Pushover(model, cmap, f_v, [ctrl], [target], monitor_dofs=[U, W, TH], settings=cfg,
+    po = Stepper(model, cmap, f_v, [ctrl], [target], monitor_dofs=[U, W, TH], settings=cfg,
                   observer=_pile_observer(built),
                   stop_when=None if loading.control == "rotation" else stop)
     res = po.run(u0=u_start, states0=res_v.states, callback=progress)
@@ -173,9 +173,9 @@ def _settlement_pushover(built, res_w, f_weight, t0, t1, progress, settings) -> 
     W = model.dofmap.ref_dof(built.ref, 1)
     cmap = built.constraints.build(extra_fixed={W: 0.0})
     w0 = float(res_w.u[W])
-    cfg = settings or PushoverSettings(initial_step=1e-3, min_step=1e-5, max_step=0.05)
+    cfg = settings or StepSettings(initial_step=1e-3, min_step=1e-5, max_step=0.05)
     t2 = time.perf_counter()
-    res = Pushover(model, cmap, f_weight, [W], [-loading.settlement_max], monitor_dofs=[W],
+    res = Stepper(model, cmap, f_weight, [W], [-loading.settlement_max], monitor_dofs=[W],
                    settings=cfg, observer=_pile_observer(built)).run(
         u0=res_w.u, states0=res_w.states, callback=progress)
     t3 = time.perf_counter()
@@ -210,7 +210,7 @@ def _settlement_pushover(built, res_w, f_weight, t0, t1, progress, settings) -> 
                   _model_info(built), timings, design.name, built, res)
 
 
-def _failed(built: BuiltModel, what: str, res: PushoverResult, t0: float) -> Result:
+def _failed(built: BuiltModel, what: str, res: StepResult, t0: float) -> Result:
     return Result("diverged", f"{what}: {res.message}", {}, {}, {}, [], _model_info(built),
                   {"total_s": time.perf_counter() - t0}, built.design.name, built, res)
 
@@ -223,7 +223,7 @@ def _model_info(built: BuiltModel) -> dict:
             "version": __version__, "reference_point": built.ref_xy}
 
 
-def _pile_summary(built: BuiltModel, res: PushoverResult) -> list[dict]:
+def _pile_summary(built: BuiltModel, res: StepResult) -> list[dict]:
     out = []
     for k, pr in enumerate(built.rows):
         series = [r.extra["piles"][k] for r in res.records if r.extra]
@@ -244,7 +244,7 @@ def _pile_summary(built: BuiltModel, res: PushoverResult) -> list[dict]:
     return out
 
 
-def _requirements(design: Design, rot, moment, kp, res: PushoverResult) -> dict:
+def _requirements(design: Design, rot, moment, kp, res: StepResult) -> dict:
     req = design.requirements
     out: dict = {}
     if req.static_stiffness_min is not None and req.static_stiffness_moment is not None:

@@ -27,13 +27,13 @@ from .dofs import ConstraintMap
 from .model import Model
 from .newton import ConvergenceError, newton
 
-__all__ = ["PushoverSettings", "StepRecord", "PushoverResult", "Pushover", "residual_callback"]
+__all__ = ["StepSettings", "StepRecord", "StepResult", "Stepper", "residual_callback"]
 
 log = logging.getLogger(__name__)
 
 
 @dataclass(frozen=True)
-class PushoverSettings:
+class StepSettings:
     """Stepping controls (load-factor units: 1 = the whole prescribed increment)."""
 
     initial_step: float = 0.02
@@ -68,7 +68,7 @@ class StepRecord:
 
 
 @dataclass
-class PushoverResult:
+class StepResult:
     status: str  # "ok" (target reached or post-peak stop) or "diverged"
     message: str
     records: list[StepRecord]
@@ -116,7 +116,7 @@ def residual_callback(model: Model, cmap: ConstraintMap, f_ext: NDArray[np.float
 
 
 @dataclass
-class Pushover:
+class Stepper:
     """Drive prescribed DOFs by ``increments`` (same order as ``control_dofs``).
 
     Parameters
@@ -137,7 +137,7 @@ class Pushover:
     control_dofs: Sequence[int]
     increments: Sequence[float]
     monitor_dofs: Sequence[int] = ()
-    settings: PushoverSettings = field(default_factory=PushoverSettings)
+    settings: StepSettings = field(default_factory=StepSettings)
     f_ext_end: NDArray[np.float64] | None = None
     observer: Callable[[NDArray[np.float64], list], dict] | None = None
     stop_when: Callable[[StepRecord], bool] | None = None
@@ -147,7 +147,7 @@ class Pushover:
         u0: NDArray[np.float64] | None = None,
         states0: list[State] | None = None,
         callback: Callable[[StepRecord], None] | None = None,
-    ) -> PushoverResult:
+    ) -> StepResult:
         t_start = time.perf_counter()
         cfg, cmap, model = self.settings, self.cmap, self.model
         positions = np.array([cmap.fixed_position(d) for d in self.control_dofs],
@@ -211,7 +211,7 @@ class Pushover:
                 message = f"stopped after the peak: force fell by more than {cfg.drop_fraction:.0%}"
                 break
         cmap.set_prescribed(_current(base, positions, inc, lam))  # leave the map at the end state
-        return PushoverResult(status, message, records, u, states,
+        return StepResult(status, message, records, u, states,
                               time.perf_counter() - t_start, cutbacks)
 
 

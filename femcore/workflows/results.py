@@ -14,10 +14,10 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
-from .analysis import Result
-from .design import SCHEMA_VERSION
-from .model import SolidBlock
+from femcore import __version__
+from femcore.foundation.design import SCHEMA_VERSION
+from femcore.foundation.run import Result
+from femcore.model import SolidBlock
 
 __all__ = ["write_result_json", "write_curve_csv", "write_fields", "result_dict",
            "RESULT_SCHEMA_VERSION", "CAUTION"]

@@ -17,7 +17,7 @@ from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
-__all__ = ["Analysis", "SoilLayer", "Soil", "Cap", "PileRing", "Piles", "Loading",
+__all__ = ["AnalysisSettings", "SoilLayer", "Soil", "Cap", "PileRing", "Piles", "Loading",
            "Requirements", "Keypoints", "Design", "design_from_dict", "load_design",
            "DesignError", "demo_design", "SCHEMA_VERSION"]
 
@@ -39,7 +39,7 @@ class _Model(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True, validate_default=True)
 
 
-class Analysis(_Model):
+class AnalysisSettings(_Model):
     """How the design is analysed."""
 
     geometry: Literal["plane_strain", "axisymmetric"] = Field(
@@ -214,7 +214,7 @@ class Design(_Model):
     cap: Cap
     piles: Piles
     loading: Loading
-    analysis: Analysis = Field(default_factory=Analysis)
+    analysis: AnalysisSettings = Field(default_factory=AnalysisSettings)
     requirements: Requirements = Field(default_factory=Requirements)
     keypoints: Keypoints = Field(default_factory=Keypoints)
 
@@ -323,7 +323,7 @@ def demo_design(**analysis) -> Design:
         piles=Piles(width=0.45, length=21.5, rings=[PileRing(radius=9.9, count=28, rake=1 / 6),
                                                     PileRing(radius=6.6, count=16)]),
         loading=Loading(vertical=8400.0, control="lever", lever_arm=92.0, rotation_max=0.005),
-        analysis=Analysis(**analysis),
+        analysis=AnalysisSettings(**analysis),
         requirements=Requirements(static_stiffness_min=30e6, static_stiffness_moment=138e3,
                                   dynamic_stiffness_min=150e6, dynamic_stiffness_moment=40e3,
                                   design_moment=186.3e3, resistance_factor=1.0,

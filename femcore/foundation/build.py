@@ -11,7 +11,7 @@ Two supports:
 * ``springs``: no soil continuum; the same springs anchored to fixed ground and a rigid cap
   (the classical subgrade-reaction model).
 
-The spring stiffnesses of :mod:`materials.capacity` describe the whole soil response of a
+The spring stiffnesses of :mod:`femcore.foundation.resistance` describe the whole soil response of a
 pile (subgrade reaction). In the continuum the soil mesh already deforms, so the interface
 springs only carry the local pile-soil slip: their stiffness is multiplied by
 ``piles.interface_factor`` (default 10, so that the interface adds about a tenth of the
@@ -29,8 +29,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import NDArray
 
-from materials import LinearElastic, MohrCoulomb, Tresca
-from materials.capacity import (
+from femcore.foundation.resistance import (
     lateral_limit,
     lateral_stiffness,
     shaft_limit,
@@ -38,15 +37,16 @@ from materials.capacity import (
     tip_limit,
     tip_stiffness,
 )
+from materials import LinearElastic, MohrCoulomb, Tresca
 
-from .beams import BeamBlock
+from ..beams import BeamBlock
+from ..dofs import Constraints
+from ..initial_stress import GAMMA_W, Layer, Profile
+from ..interfaces import ContactBlock, SpringBlock, contact_pairs
+from ..mesh import Mesh
+from ..model import Model
 from .design import Design, DesignError, SoilLayer
-from .dofs import Constraints
-from .interfaces import ContactBlock, SpringBlock, contact_pairs
 from .layout import Ring, Row, default_slice_length, lump_rings
-from .mesh import Mesh
-from .model import Model
-from .stages import GAMMA_W, Layer, Profile
 
 __all__ = ["BuiltModel", "PileRow", "build_model", "MESH_SIZES"]
 

@@ -29,7 +29,7 @@ class InputProblem(Exception):
 
 
 def _load(path: str, element: str | None = None, mesh: str | None = None):
-    from .design import DesignError, load_design
+    from femcore.foundation.design import DesignError, load_design
 
     try:
         design = load_design(path)
@@ -66,7 +66,7 @@ def _cmd_info(args: argparse.Namespace) -> int:
 
 
 def _cmd_schema(args: argparse.Namespace) -> int:
-    from .design import Design
+    from femcore.foundation.design import Design
 
     print(json.dumps(Design.model_json_schema(), indent=1))
     return EXIT_OK
@@ -91,8 +91,8 @@ def _summary_rows(design, built) -> list[str]:
 
 
 def _cmd_check(args: argparse.Namespace) -> int:
-    from .build import build_model
-    from .design import DesignError
+    from femcore.foundation.build import build_model
+    from femcore.foundation.design import DesignError
 
     design = _load(args.design)
     try:
@@ -139,12 +139,12 @@ def _print_summary(result, dynamic, out: Path, t_total: float) -> None:
 
 
 def _cmd_run(args: argparse.Namespace) -> int:
-    from .analysis import run_built
-    from .build import build_model
-    from .design import DesignError
-    from .dynamic import dynamic_stiffness
-    from .report import write_report
-    from .results import write_curve_csv, write_fields, write_result_json
+    from femcore.foundation.build import build_model
+    from femcore.foundation.design import DesignError
+    from femcore.foundation.dynamic import dynamic_stiffness
+    from femcore.foundation.run import run_built
+    from femcore.workflows.report import write_report
+    from femcore.workflows.results import write_curve_csv, write_fields, write_result_json
 
     t0 = time.perf_counter()
     design = _load(args.design, args.element, args.mesh)
@@ -212,7 +212,7 @@ def _moment(rec, built) -> float:
 
 
 def _cmd_campaign_run(args: argparse.Namespace) -> int:
-    from .campaign import SpaceError, run_campaign
+    from femcore.workflows.campaign import SpaceError, run_campaign
 
     if args.workers is not None and args.workers < 1:
         raise InputProblem(f"--workers {args.workers}: must be >= 1")
@@ -238,7 +238,7 @@ def _print_status(summary: dict) -> None:
 
 
 def _cmd_campaign_status(args: argparse.Namespace) -> int:
-    from .campaign import status_summary
+    from femcore.workflows.campaign import status_summary
 
     if not Path(args.store).is_file():
         raise InputProblem(f"{args.store}: no such store file")
@@ -247,7 +247,7 @@ def _cmd_campaign_status(args: argparse.Namespace) -> int:
 
 
 def _cmd_campaign_export(args: argparse.Namespace) -> int:
-    from .campaign import SpaceError, export
+    from femcore.workflows.campaign import SpaceError, export
 
     if not Path(args.store).is_file():
         raise InputProblem(f"{args.store}: no such store file")

@@ -277,8 +277,8 @@ class _Timeout(Exception):
 
 def run_sample(design_data: dict, time_limit: float, retries: int) -> dict:
     """Run one design (in a worker). Never raises: every outcome is a record."""
-    from .analysis import run_design
-    from .design import DesignError, design_from_dict
+    from femcore.foundation.design import DesignError, design_from_dict
+    from femcore.foundation.run import run_design
 
     t0 = time.perf_counter()
     try:
@@ -331,7 +331,7 @@ def _versions() -> tuple[str, str | None, str]:
     """tiltfe version, git hash of the source tree (None outside a checkout), gmsh version."""
     import gmsh
 
-    from . import __version__
+    from femcore import __version__
 
     try:
         git = subprocess.run(["git", "rev-parse", "--short", "HEAD"], capture_output=True,
