@@ -20,6 +20,7 @@ import numpy as np
 
 from femcore.mesh import Mesh
 
+from . import regions
 from .convert import from_gmsh_model
 from .session import gmsh_session
 
@@ -66,8 +67,11 @@ def _size_field(h: float, h_near: float, dist_near: float, dist_far: float,
 
 
 def rectangle(x0: float, x1: float, y0: float, y1: float, h: float,
-              element: str = "T6") -> Mesh:
-    """Structured-free rectangle mesh with edge sets ``left``, ``right``, ``bottom``, ``top``."""
+              element: str = "T6", msh_file: str | None = None) -> Mesh:
+    """Structured-free rectangle mesh with edge sets ``left``, ``right``, ``bottom``, ``top``.
+
+    ``msh_file``: also write the meshed model to this gmsh file (format 4.1), e.g. to check
+    that reading it back gives the same mesh."""
     order = _order(element)
     with gmsh_session("rectangle"):
         occ = gmsh.model.occ
@@ -77,7 +81,11 @@ def rectangle(x0: float, x1: float, y0: float, y1: float, h: float,
                                          "bottom": "bottom", "top": "top"})
         gmsh.model.addPhysicalGroup(2, [s], name="domain")
         _size_field(h, h, 0, 0)
-        return _finish(order)
+        mesh = _finish(order)
+        if msh_file is not None:
+            gmsh.option.setNumber("Mesh.MshFileVersion", 4.1)
+            gmsh.write(str(msh_file))
+        return mesh
 
 
 def annulus_sector(a: float, b: float, h: float, element: str = "T6",
@@ -252,38 +260,38 @@ def layered_domain(
                 continue
             z = -cy
             k = int(np.searchsorted(bounds, z)) - 1
-            layer_of.setdefault(f"layer_{max(k, 0) + 1}", []).append(stag)
+            layer_of.setdefault(regions.layer(max(k, 0) + 1), []).append(stag)
         soil_tags = []
         for name in sorted(layer_of, key=lambda s: int(s.split("_")[1])):
             gmsh.model.addPhysicalGroup(2, layer_of[name], name=name)
             soil_tags += layer_of[name]
-        gmsh.model.addPhysicalGroup(2, soil_tags, name="soil")
+        gmsh.model.addPhysicalGroup(2, soil_tags, name=regions.SOIL)
         if cap_tags:
-            gmsh.model.addPhysicalGroup(2, cap_tags, name="cap")
+            gmsh.model.addPhysicalGroup(2, cap_tags, name=regions.CAP)
 
         # --- classify curves
         tol = 1e-7 * max(width, depth)
-        box_names = {"left": "left", "right": "right", "bottom": "base", "top": "ground",
-                     "footing": "footing"}
+        box_names = {"left": regions.LEFT, "right": regions.RIGHT, "bottom": regions.BASE,
+                     "top": regions.GROUND, "footing": regions.FOOTING}
         _name_box_edges(x0, x1, -depth, 0.0, box_names,
                         footing=None if footing is None else tuple(sorted(footing)))
         for k, ((ax, ay), (bx, by)) in enumerate(lines, start=1):
             on = [c for _, c in gmsh.model.getEntities(1)
                   if _curve_on_segment(c, (ax, ay), (bx, by), tol)]
-            gmsh.model.addPhysicalGroup(1, on, name=f"line_{k}")
+            gmsh.model.addPhysicalGroup(1, on, name=regions.line(k))
         if cap_tags:
             cap_boundary = gmsh.model.getBoundary([(2, t) for t in cap_tags], oriented=False)
             soil_boundary = gmsh.model.getBoundary([(2, t) for t in soil_tags], oriented=False)
             shared = sorted({abs(c) for _, c in cap_boundary} & {abs(c) for _, c in soil_boundary})
             if shared:
-                gmsh.model.addPhysicalGroup(1, shared, name="cap_soil")
+                gmsh.model.addPhysicalGroup(1, shared, name=regions.CAP_SOIL)
         if footing is not None:
             fa, fb = sorted(footing)
             ends = [p for _, p in gmsh.model.getEntities(0)
                     if abs(gmsh.model.getValue(0, p, [])[1]) < tol and
                     min(abs(gmsh.model.getValue(0, p, [])[0] - fa),
                         abs(gmsh.model.getValue(0, p, [])[0] - fb)) < tol]
-            gmsh.model.addPhysicalGroup(0, ends, name="footing_ends")
+            gmsh.model.addPhysicalGroup(0, ends, name=regions.FOOTING_ENDS)
 
         # --- refinement toward footing ends, cap and lines
         near_pts = []
@@ -293,7 +301,8 @@ def layered_domain(
                         and min(abs(gmsh.model.getValue(0, p, [])[0] - f) for f in footing) < tol]
         near_curves = []
         for k in range(1, len(lines) + 1):
-            near_curves += list(gmsh.model.getEntitiesForPhysicalGroup(1, _group(1, f"line_{k}")))
+            group = _group(1, regions.line(k))
+            near_curves += list(gmsh.model.getEntitiesForPhysicalGroup(1, group))
         if cap_tags:
             near_curves += [abs(c) for _, c in gmsh.model.getBoundary(
                 [(2, t) for t in cap_tags], oriented=False)]

@@ -7,8 +7,9 @@ import threading
 from collections.abc import Iterator
 
 import gmsh
+import numpy as np
 
-__all__ = ["gmsh_session", "FIXED_OPTIONS"]
+__all__ = ["gmsh_session", "FIXED_OPTIONS", "element_properties"]
 
 FIXED_OPTIONS: dict[str, float] = {
     "General.Terminal": 0,
@@ -42,3 +43,12 @@ def gmsh_session(name: str = "tiltfe") -> Iterator[None]:
             yield
         finally:
             gmsh.finalize()
+
+
+def element_properties(gmsh_type: int) -> tuple[int, np.ndarray]:
+    """gmsh's own node count and reference node coordinates ``(n_nodes, dim)`` of an element
+    type (the reference the element tests compare our node order with)."""
+    with gmsh_session("element properties"):
+        props = gmsh.model.mesh.getElementProperties(gmsh_type)
+    dim = int(props[1])
+    return int(props[3]), np.asarray(props[4], dtype=np.float64).reshape(-1, dim)

@@ -4,14 +4,14 @@ and node order identical to gmsh's.
 References: the Lagrange property N_a(x_b) = delta_ab and completeness of degree p are the
 defining properties of Lagrange elements (Zienkiewicz, Taylor & Zhu 2013, *The Finite Element
 Method: Its Basis and Fundamentals*, ch. 6); gmsh's own node order is the reference for the
-ordering (gmsh.model.mesh.getElementProperties).
+ordering (gmsh.model.mesh.getElementProperties, through meshing.session).
 """
 
-import gmsh
 import numpy as np
 import pytest
 
 from femcore.elements import LINE2, LINE3, LINE5, T3, T6, T15
+from meshing.session import element_properties
 
 ALL = [T3, T6, T15, LINE2, LINE3, LINE5]
 RNG = np.random.default_rng(7)
@@ -64,12 +64,7 @@ def test_gradients_match_finite_differences(elem):
 
 @pytest.mark.parametrize("elem", ALL, ids=lambda e: e.name)
 def test_node_order_is_gmsh(elem):
-    gmsh.initialize(readConfigFiles=False, interruptible=False)
-    try:
-        props = gmsh.model.mesh.getElementProperties(elem.gmsh_type)
-    finally:
-        gmsh.finalize()
-    n_nodes, local = props[3], np.asarray(props[4]).reshape(-1, elem.dim)
+    n_nodes, local = element_properties(elem.gmsh_type)
     assert n_nodes == elem.n_nodes
     assert np.allclose(local, elem.nodes, atol=1e-14)
 

@@ -14,12 +14,10 @@ from conftest import nodal
 from femcore import ConstraintError, Mesh, MeshError, Model
 from femcore.assembly import SparsePattern, element_stiffness
 from femcore.elements import T6
-from femcore.fields import write_vtu
+from femcore.workflows.fields import write_vtu
 from femcore.linsolve import SolverError, available_backends, solve
 from materials import LinearElastic, MaterialParameterError, elastic_matrix
 from meshing import layered_domain, read_msh, rectangle
-from meshing.builders import _finish
-from meshing.session import gmsh_session
 
 
 def test_inverted_cell_is_named():
@@ -55,20 +53,8 @@ def test_meshes_are_reproducible():
 
 
 def test_read_msh_equals_model_conversion(tmp_path):
-    import gmsh
-
     path = str(tmp_path / "box.msh")
-    with gmsh_session():
-        s = gmsh.model.occ.addRectangle(0, 0, 0, 2, 1)
-        gmsh.model.occ.synchronize()
-        gmsh.model.addPhysicalGroup(2, [s], name="soil")
-        bottom = [c for _, c in gmsh.model.getEntities(1)
-                  if abs(gmsh.model.getBoundingBox(1, c)[4]) < 1e-6]
-        gmsh.model.addPhysicalGroup(1, bottom, name="base")
-        gmsh.option.setNumber("Mesh.MeshSizeMax", 0.3)
-        direct = _finish(2)
-        gmsh.option.setNumber("Mesh.MshFileVersion", 4.1)
-        gmsh.write(path)
+    direct = rectangle(0.0, 2.0, 0.0, 1.0, 0.3, "T6", msh_file=path)
     from_file = read_msh(path)
     assert from_file.n_cells == direct.n_cells and from_file.n_nodes == direct.n_nodes
     assert np.isclose(from_file.corner_areas().sum(), 2.0, rtol=1e-12)
@@ -76,7 +62,7 @@ def test_read_msh_equals_model_conversion(tmp_path):
     c1 = np.sort(direct.points[direct.cells].mean(axis=1), axis=0)
     c2 = np.sort(from_file.points[from_file.cells].mean(axis=1), axis=0)
     assert np.allclose(c1, c2, atol=1e-12)
-    assert np.isclose(np.ptp(from_file.points[from_file.nodes_of("base"), 1]), 0.0)
+    assert np.isclose(np.ptp(from_file.points[from_file.nodes_of("bottom"), 1]), 0.0)
 
 
 def test_bincount_assembly_equals_coo_sum():

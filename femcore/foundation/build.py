@@ -1,22 +1,23 @@
 """Design -> geometry (gmsh) -> Model: soil layers, elastic cap, pile rows, ties and loads.
 
-Two supports:
+The design is trusted here: every rule lives in the schema (:mod:`.design`), checked once when
+the file is read. Two supports:
 
 * ``continuum``: soil as T6/T15 continuum (Tresca, Mohr-Coulomb or elastic layers, K0 initial
-  stresses with the water table), an elastic cap continuum, each pile row an embedded
-  Euler-Bernoulli beam whose nodes pair with the soil nodes on its line through interface
-  springs (shaft t-z, lateral p-y, tip q-z). Cap contact ``none`` splits the cap underside from
-  the soil (no cap bearing); ``bonded`` shares the nodes; ``frictional`` splits them and joins
-  them by a zero-thickness contact (Coulomb friction, no tension: the cap can lift off).
+  stresses with the water table), an elastic cap continuum, and each pile row a beam whose
+  nodes lie on the soil nodes of its line (gmsh puts the line into the soil mesh), tied to
+  them node by node by slip springs (shaft t-z, lateral p-y, tip q-z). Cap contact ``none``
+  splits the cap underside from the soil (no cap bearing); ``bonded`` shares the nodes;
+  ``frictional`` splits them and joins them by a zero-thickness contact (Coulomb friction, no
+  tension: the cap can lift off).
 * ``springs``: no soil continuum; the same springs anchored to fixed ground and a rigid cap
   (the classical subgrade-reaction model).
 
-The spring stiffnesses of :mod:`femcore.foundation.resistance` describe the whole soil response of a
-pile (subgrade reaction). In the continuum the soil mesh already deforms, so the interface
-springs only carry the local pile-soil slip: their stiffness is multiplied by
-``piles.interface_factor`` (default 10, so that the interface adds about a tenth of the
-subgrade compliance in series with the continuum); their limits are unchanged. This is a
-modelling choice, stated in every result.
+The spring stiffnesses of :mod:`.resistance` describe the whole soil response of a pile
+(subgrade reaction). In the continuum the soil mesh already deforms, so the slip springs only
+carry the local pile-soil slip: their stiffness is ``piles.slip_stiffening`` (default 10)
+times the subgrade value, so that they add about a tenth of the subgrade compliance in series
+with the continuum; their limits are unchanged. The value is written into every result.
 
 Everything in the 2D model is per metre of slice (out-of-plane length L); loads are divided
 by L, row stiffnesses and resistances multiplied by n_row / L.
@@ -38,6 +39,7 @@ from femcore.foundation.resistance import (
     tip_stiffness,
 )
 from materials import LinearElastic, MohrCoulomb, Tresca
+from meshing import regions
 
 from ..beams import BeamBlock
 from ..dofs import Constraints
@@ -45,7 +47,7 @@ from ..initial_stress import GAMMA_W, Layer, Profile
 from ..interfaces import ContactBlock, SpringBlock, contact_pairs
 from ..mesh import Mesh
 from ..model import Model
-from .design import Design, DesignError, SoilLayer
+from .design import Design, SoilLayer
 from .layout import Ring, Row, default_slice_length, lump_rings
 
 __all__ = ["BuiltModel", "PileRow", "build_model", "MESH_SIZES"]
@@ -79,24 +81,22 @@ class BuiltModel:
     profile: Profile | None
     meta: dict = field(default_factory=dict)
 
+    @property
+    def lever_height(self) -> float:
+        """Height h of the reference point above the tower base (m; 0 without a lever)."""
+        return self.ref_xy[1] - self.pedestal_top
+
 
 def _soil_material(layer: SoilLayer, top: float):
     nu = layer.nu if layer.nu is not None else (0.49 if layer.undrained else 0.3)
     if layer.model == "tresca":
-        if layer.su is None:
-            raise DesignError(f"soil layer {layer.name!r}: model tresca needs su (kPa)")
         E = layer.E if layer.E is not None else 200.0 * layer.su
         return Tresca(E=E, nu=nu, su=layer.su, su_gradient=layer.su_gradient,
                       E_gradient=layer.E_gradient, depth_ref=top)
-    if layer.E is None:
-        raise DesignError(f"soil layer {layer.name!r}: E (kPa) is required")
     if layer.model == "mohr_coulomb":
         return MohrCoulomb(E=layer.E, nu=nu, c=layer.c, phi=layer.phi, psi=layer.psi,
                            E_gradient=layer.E_gradient, depth_ref=top)
-    if layer.model == "elastic":
-        return LinearElastic(E=layer.E, nu=nu, E_gradient=layer.E_gradient, depth_ref=top)
-    raise DesignError(f"soil layer {layer.name!r}: model {layer.model!r} is not one of "
-                      "tresca, mohr_coulomb, elastic")
+    return LinearElastic(E=layer.E, nu=nu, E_gradient=layer.E_gradient, depth_ref=top)
 
 
 def _k0(layer: SoilLayer) -> float:
@@ -178,30 +178,19 @@ def _split_underside(mesh: Mesh, y: float, x_lim: float):
     |x| < x_lim). Returns the new mesh, the split nodes, the copy index and the underside
     edges (soil side)."""
     tol = 1e-6 * max(1.0, x_lim)
-    edges = mesh.edge_sets.get("cap_soil")
-    if edges is None:
-        raise DesignError("the mesh has no cap-soil boundary")
+    edges = mesh.edge_sets[regions.CAP_SOIL]
     pts = mesh.points
     under = edges[np.all(np.abs(pts[edges[:, :2], 1] - y) < tol, axis=1)]
     nodes = np.unique(under)
     nodes = nodes[np.abs(pts[nodes, 0]) < x_lim - tol]
-    new_mesh, new_index = mesh.split_nodes(nodes, mesh.cell_sets["cap"])
+    new_mesh, new_index = mesh.split_nodes(nodes, mesh.cell_sets[regions.CAP])
     return new_mesh, nodes, new_index, under
 
 
 def build_model(design: Design) -> BuiltModel:
-    """The 2D model of a design (see module docstring)."""
+    """The 2D model of a (validated) design (see module docstring)."""
     an, cap, piles, loading = design.analysis, design.cap, design.piles, design.loading
     axisym = an.geometry == "axisymmetric"
-    if an.geometry not in ("plane_strain", "axisymmetric"):
-        raise DesignError(f"analysis.geometry {an.geometry!r} is not plane_strain or "
-                          "axisymmetric")
-    if axisym and (loading.control != "settlement" or an.support != "continuum"):
-        raise DesignError("analysis.geometry = axisymmetric serves vertical loading only: it "
-                          "needs loading.control = settlement and analysis.support = continuum "
-                          f"(got {loading.control!r}, {an.support!r})")
-    if loading.control == "settlement" and not axisym:
-        raise DesignError("loading.control = settlement needs analysis.geometry = axisymmetric")
     R = cap.diameter / 2
     rings = [Ring(r.radius, r.count, r.rake, r.angle_offset) for r in piles.rings]
     vertical_extent = piles.length / np.sqrt(1 + max(r.rake for r in rings) ** 2)
@@ -218,36 +207,22 @@ def build_model(design: Design) -> BuiltModel:
     head_y = -cap.underside_depth
     A, I, perimeter, r0 = _pile_section(design)
 
-    if loading.control == "lever":
-        if not loading.lever_arm or loading.lever_arm <= 0:
-            raise DesignError("loading.lever_arm (m) must be > 0 for control = lever")
-        ref_xy = (0.0, ped_top + loading.lever_arm)
-    elif loading.control in ("rotation", "settlement"):
-        ref_xy = (0.0, ped_top)
-    else:
-        raise DesignError(f"loading.control {loading.control!r} is not rotation, lever or "
-                          "settlement")
+    # the reference point: the lever-arm tip (control lever) or the tower base
+    ref_xy = (0.0, ped_top + (loading.lever_arm if loading.control == "lever" else 0.0))
 
     meta = {"slice_length_m": L, "rows": [r.__dict__ for r in rows],
             "support": an.support, "element": an.element, "mesh": an.mesh,
-            "interface_factor": piles.interface_factor if an.support == "continuum" else 1.0}
+            "slip_stiffening": piles.slip_stiffening if an.support == "continuum" else 1.0}
     if an.support == "springs":
         return _build_springs(design, rows, L, profile, soil_at, ref_xy, ped_top, meta,
                               (A, I, perimeter, r0))
-    if an.support != "continuum":
-        raise DesignError(f"analysis.support {an.support!r} is not continuum or springs")
-
     from meshing import layered_domain  # gmsh only when a mesh is needed
 
     h_near, far = MESH_SIZES[an.mesh]
     width = cap.diameter * (1 + 2 * an.domain_factor) / (2 if axisym else 1)
-    depth = max(cap.underside_depth + vertical_extent + cap.diameter, 2 * cap.diameter)
+    depth = design.model_depth
     layer_depths = np.cumsum([ly.thickness for ly in design.soil.layers])[:-1]
     layer_depths = [float(z) for z in layer_depths if 0 < z < depth - 1e-6]
-    total = sum(ly.thickness for ly in design.soil.layers)
-    if total < depth:
-        raise DesignError(f"soil.layers: the layers reach {total:.1f} m but the model needs "
-                          f"{depth:.1f} m (pile tips + one cap diameter); thicken the last layer")
     lines = [_row_line(r, head_y, piles.length) for r in rows]
     wt = design.soil.water_table
     mesh = layered_domain(width, depth, layer_depths, cap=poly, lines=lines,
@@ -259,16 +234,14 @@ def build_model(design: Design) -> BuiltModel:
     underside = None
     if cap.contact in ("none", "frictional"):
         mesh, split_nodes, new_index, underside = _split_underside(mesh, head_y, R)
-    elif cap.contact != "bonded":
-        raise DesignError(f"cap.contact {cap.contact!r} is not none, bonded or frictional")
 
     model = Model(mesh, an.geometry)
     tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])
     for k, ly in enumerate(design.soil.layers, start=1):
-        name = f"layer_{k}"
+        name = regions.layer(k)
         if name in mesh.cell_sets and len(mesh.cell_sets[name]):
             model.add_block(ly.name, name, _soil_material(ly, tops[k - 1]))
-    model.add_block("cap", "cap", LinearElastic(cap.E, cap.nu), unit_weight=cap.gamma)
+    model.add_block("cap", regions.CAP, LinearElastic(cap.E, cap.nu), unit_weight=cap.gamma)
     if cap.contact == "frictional":
         model.add_element_block(_cap_contact(mesh, underside, new_index, design, soil_at))
     model.add_reference_point("ref", ref_xy)
@@ -278,7 +251,7 @@ def build_model(design: Design) -> BuiltModel:
         copies = new_index[split_nodes]
         cons.fix_nodes(copies[np.abs(mesh.points[copies, 0]) < 1e-9], (0,))
     # tower base: pedestal-top nodes tied rigidly to the reference point
-    cap_nodes = np.unique(mesh.cells[mesh.cell_sets["cap"]])
+    cap_nodes = np.unique(mesh.cells[mesh.cell_sets[regions.CAP]])
     tol = 1e-6 * cap.diameter
     top_nodes = cap_nodes[(np.abs(mesh.points[cap_nodes, 1] - ped_top) < tol)
                           & (np.abs(mesh.points[cap_nodes, 0]) <= cap.pedestal_diameter / 2
@@ -291,7 +264,7 @@ def build_model(design: Design) -> BuiltModel:
 
     pile_rows = []
     for k, row in enumerate(rows, start=1):
-        edges = mesh.edge_sets[f"line_{k}"]
+        edges = mesh.edge_sets[regions.line(k)]
         nodes = np.unique(edges)
         head = np.array(lines[k - 1][0])
         order = np.argsort(np.hypot(*(mesh.points[nodes] - head).T))
@@ -338,7 +311,7 @@ def _tie_head_to_cap(cons: Constraints, model: Model, head_dofs, cap_node: int,
     if not rotation:
         return
     mesh = model.mesh
-    cap_cells = mesh.cell_sets["cap"]
+    cap_cells = mesh.cell_sets[regions.CAP]
     cells = cap_cells[np.any(mesh.cells[cap_cells] == cap_node, axis=1)]
     masters, coefs = [], []
     elem = mesh.element
@@ -359,7 +332,7 @@ def _pile_row(model: Model, name: str, row: Row, xy, L: float, design: Design, s
     A, I, perimeter, r0 = section
     piles = design.piles
     f = row.count / L  # piles per metre of slice
-    fk = f * (1.0 if soil_nodes is None else piles.interface_factor)  # stiffness scale
+    fk = f * (1.0 if soil_nodes is None else piles.slip_stiffening)  # stiffness scale
     dofs = model.dofmap.add_points(name, xy)  # (n, 3)
     edofs = np.concatenate([dofs[:-1], dofs[1:]], axis=1)  # (e, 6)
     e = len(edofs)

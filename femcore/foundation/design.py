@@ -45,7 +45,10 @@ class AnalysisSettings(_Model):
     geometry: Literal["plane_strain", "axisymmetric"] = Field(
         "plane_strain", description="plane_strain (moment) or axisymmetric (vertical only)")
     element: Literal["T6", "T15"] = Field(
-        "T15", description="triangle: T15 (accurate collapse loads) or T6 (fast)")
+        "T15", description="soil triangles: T15 = 15-node quartic (default: accurate undrained "
+        "collapse loads in plane strain and axisymmetry, where low-order triangles lock; Sloan "
+        "& Randolph 1982, Numerical prediction of collapse loads using finite element "
+        "methods) or T6 = 6-node quadratic (about 4x faster, collapse loads a few % high)")
     mesh: Literal["coarse", "standard", "fine"] = Field(
         "standard", description="element size near piles and cap: 3.0 / 1.6 / 1.0 m")
     support: Literal["continuum", "springs"] = Field(
@@ -158,9 +161,12 @@ class Piles(_Model):
                                description="shaft friction factor in sand (default "
                                "tan(phi - 5))")
     lateral_factor: float = Field(9.0, ge=1.0, le=15.0, description="N_p for clay (Broms: 9)")
-    interface_factor: float = Field(10.0, ge=1.0, le=1000.0,
-                                    description="continuum only: interface spring stiffness "
-                                    "multiplier (see the manual)")
+    slip_stiffening: float = Field(
+        10.0, ge=1.0, le=1000.0,
+        description="continuum support only: how many times stiffer the pile-soil slip "
+        "springs are than the subgrade-reaction springs of the springs-only model (the soil "
+        "continuum already carries the soil's deformation; the slip springs add only the "
+        "local slip at the pile wall, about a tenth of the subgrade compliance at 10)")
 
 
 class Loading(_Model):
@@ -218,6 +224,21 @@ class Design(_Model):
     requirements: Requirements = Field(default_factory=Requirements)
     keypoints: Keypoints = Field(default_factory=Keypoints)
 
+    @property
+    def pile_tip_depth(self) -> float:
+        """Depth of the deepest pile tip below ground (m)."""
+        max_rake = max(r.rake for r in self.piles.rings)
+        return self.cap.underside_depth + self.piles.length / math.sqrt(1 + max_rake**2)
+
+    @property
+    def model_depth(self) -> float:
+        """Depth of the soil model (m): the deeper of the pile tips + one cap diameter and two
+        cap diameters (continuum), or the pile tips (springs). The one soil-depth rule: the
+        schema checks the layers reach it, the builder meshes to it."""
+        if self.analysis.support != "continuum":
+            return self.pile_tip_depth
+        return max(self.pile_tip_depth + self.cap.diameter, 2 * self.cap.diameter)
+
     @model_validator(mode="after")
     def _geometry(self) -> Design:
         problems = []
@@ -236,17 +257,19 @@ class Design(_Model):
             if b - a < 2 * w:
                 problems.append(f"piles.rings: radii {a} m and {b} m overlap (need at least "
                                 f"2 pile widths = {2 * w:.2f} m between rings)")
-        max_rake = max(r.rake for r in self.piles.rings)
-        tip = self.cap.underside_depth + self.piles.length / math.sqrt(1 + max_rake**2)
         total = sum(ly.thickness for ly in self.soil.layers)
-        needed = tip + (self.cap.diameter if self.analysis.support == "continuum" else 0.0)
+        needed = self.model_depth
         if total < needed:
+            rule = ("the deeper of pile tips + one cap diameter and two cap diameters"
+                    if self.analysis.support == "continuum" else "the pile tips")
             problems.append(f"soil.layers: total thickness {total:.2f} m must reach "
-                            f"{needed:.2f} m (pile tips + one cap diameter); thicken the "
-                            "last layer")
+                            f"{needed:.2f} m ({rule}); thicken the last layer")
         if self.cap.centre_thickness > self.cap.underside_depth + 3.0:
             problems.append(f"cap.centre_thickness = {self.cap.centre_thickness} m: the cap top "
                             "may stand at most 3 m above ground (use pedestal_height)")
+        if self.analysis.geometry == "axisymmetric" and self.analysis.support != "continuum":
+            problems.append("analysis.support must be 'continuum' for axisymmetric analyses "
+                            f"(got {self.analysis.support!r})")
         if self.analysis.geometry == "axisymmetric" and self.loading.control != "settlement":
             problems.append("loading.control must be 'settlement' for axisymmetric analyses")
         if self.loading.control == "settlement" and self.analysis.geometry != "axisymmetric":

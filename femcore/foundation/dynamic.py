@@ -15,19 +15,19 @@ import numpy as np
 
 from .build import build_model
 from .design import Design
+from .records import DynamicStiffness
 
 __all__ = ["dynamic_stiffness"]
 
 
-def dynamic_stiffness(design: Design, rotation: float = 1e-5) -> dict:
-    """``{"value": kNm/rad or None, "moduli": ..., "reason": ...}``."""
+def dynamic_stiffness(design: Design, rotation: float = 1e-5) -> DynamicStiffness:
+    """The small-strain rotational stiffness (kNm/rad), or None with the reason."""
     layers = design.soil.layers
     missing = [ly.name for ly in layers if ly.G0 is None]
     if missing:
-        return {"value": None, "reason": f"no G0 for layer(s) {missing}",
-                "moduli": "small-strain G0"}
+        return DynamicStiffness(None, reason=f"no G0 given for layer(s) {missing}")
     if design.analysis.geometry != "plane_strain":
-        return {"value": None, "reason": "plane strain only", "moduli": "small-strain G0"}
+        return DynamicStiffness(None, reason="computed for plane-strain models only")
     new_layers = []
     for ly in layers:
         nu = ly.nu if ly.nu is not None else (0.49 if ly.undrained else 0.3)
@@ -43,6 +43,4 @@ def dynamic_stiffness(design: Design, rotation: float = 1e-5) -> dict:
     cmap = built.constraints.build(extra_fixed={TH: rotation})
     sol = model.solve_linear(cmap, np.zeros(model.n_dofs))
     moment = cmap.generalized_at(sol.reactions, TH) * built.slice_length
-    return {"value": float(moment / rotation), "rotation": rotation,
-            "moduli": "small-strain G0 (E = 2 G0 (1 + nu)), elastic",
-            "dofs": model.n_dofs}
+    return DynamicStiffness(float(moment / rotation), rotation=rotation, dofs=model.n_dofs)

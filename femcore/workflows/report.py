@@ -13,9 +13,9 @@ from pathlib import Path
 
 import numpy as np
 
+from femcore.foundation.records import CAUTION
 from femcore.foundation.run import Result
 from femcore.model import SolidBlock
-from femcore.workflows.results import CAUTION
 
 __all__ = ["write_report"]
 
@@ -35,7 +35,7 @@ def _fmt(v, scale=1.0, digits=3) -> str:
     return "-" if v is None else f"{v / scale:.{digits}g}"
 
 
-def _summary_page(plt, result: Result, dynamic: dict | None):
+def _summary_page(plt, result: Result):
     fig = plt.figure(figsize=(8.27, 11.69))
     fig.text(0.08, 0.95, f"tiltfe - {result.design_name}", fontsize=15, color=_INK,
              weight="bold")
@@ -45,14 +45,14 @@ def _summary_page(plt, result: Result, dynamic: dict | None):
         lines.append(f"  {kp.name:28s} {_fmt(kp.value, 1, 5):>12s} {kp.unit:8s} {kp.method}")
     lines += ["", "Requirement checks", ""]
     for name, chk in result.requirements.items():
-        verdict = {True: "PASS", False: "FAIL", None: "n/a"}[chk.get("passed")]
-        margin = chk.get("margin")
+        verdict = {True: "PASS", False: "FAIL", None: "not decided"}[chk.passed]
         lines.append(f"  {name:28s} {verdict:5s}" +
-                     ("" if margin is None else f"  margin {100 * margin:+.1f} %"))
+                     ("" if chk.margin is None else f"  margin {100 * chk.margin:+.1f} %"))
+    dynamic = result.dynamic
     if dynamic is not None:
-        lines += ["", f"Dynamic rotational stiffness ({dynamic.get('moduli', '')}): "
-                  f"{_fmt(dynamic.get('value'), 1e6, 4)} GNm/rad"
-                  + ("" if dynamic.get("value") else f"  ({dynamic.get('reason', '')})")]
+        lines += ["", f"Dynamic rotational stiffness ({dynamic.moduli}): "
+                  f"{_fmt(dynamic.value, 1e6, 4)} GNm/rad"
+                  + ("" if dynamic.value else f"  ({dynamic.reason})")]
     m = result.model
     lines += ["", f"Model: {m.get('support')} support, {m.get('element')}, {m.get('dofs')} DOFs, "
               f"slice length L = {m.get('slice_length_m', 0):.2f} m, "
@@ -117,7 +117,7 @@ def _model_figure(plt, result: Result, deformed: bool = False):
     return fig
 
 
-def _curve_figure(plt, result: Result, dynamic: dict | None):
+def _curve_figure(plt, result: Result):
     fig, ax = plt.subplots(figsize=(8, 5))
     c = result.curve
     th = np.concatenate([[0.0], c["rotation"]])
@@ -138,9 +138,10 @@ def _curve_figure(plt, result: Result, dynamic: dict | None):
     if req.design_moment:
         ax.axhline(req.design_moment * req.resistance_factor / 1e3, color=_WARN, lw=1,
                    ls=":", label="design moment x resistance factor")
-    if dynamic and dynamic.get("value"):
-        t = min(tmax, 1.2 * M.max() / (dynamic["value"] / 1e3) * 1e3)
-        ax.plot([0, t], [0, dynamic["value"] * t / 1e6], color=_GOOD, lw=1,
+    dynamic = result.dynamic
+    if dynamic is not None and dynamic.value:
+        t = min(tmax, 1.2 * M.max() / (dynamic.value / 1e3) * 1e3)
+        ax.plot([0, t], [0, dynamic.value * t / 1e6], color=_GOOD, lw=1,
                 label="dynamic stiffness (G0)")
     ax.set_xlabel("rotation (mrad)")
     ax.set_ylabel("moment (MNm, 3D estimate)")
@@ -155,15 +156,14 @@ def _piles_figure(plt, result: Result):
     """Envelopes over the whole pushover (per pile): axial force and bending moment."""
     fig, (a1, a2) = plt.subplots(1, 2, figsize=(10, 5.5), sharey=True)
     cmap = plt.get_cmap("viridis")
-    rows = [p for p in result.piles if "envelope" in p]
+    rows = result.piles
     for k, p in enumerate(rows):
-        env = p["envelope"]
         colour = cmap(k / max(len(rows) - 1, 1))
-        label = f"x = {p['x']:.1f} m ({p['count']:g} piles)"
-        a1.fill_betweenx(env["depth"], env["compression_min"], env["compression_max"],
+        label = f"x = {p.x:.1f} m ({p.count:g} piles)"
+        a1.fill_betweenx(p.depth, p.compression_min, p.compression_max,
                          color=colour, alpha=0.35, lw=0)
-        a1.plot(env["compression_max"], env["depth"], color=colour, lw=0.8, label=label)
-        a2.fill_betweenx(env["depth"], env["moment_min"], env["moment_max"], color=colour,
+        a1.plot(p.compression_max, p.depth, color=colour, lw=0.8, label=label)
+        a2.fill_betweenx(p.depth, p.moment_min, p.moment_max, color=colour,
                          alpha=0.35, lw=0)
     a1.axvline(0.0, color=_MUTED, lw=0.8)
     a1.invert_yaxis()
@@ -192,7 +192,7 @@ def _histories_figure(plt, result: Result):
     return fig
 
 
-def write_report(result: Result, out: Path, dynamic: dict | None = None) -> list[Path]:
+def write_report(result: Result, out: Path) -> list[Path]:
     """PNG figures and report.pdf in ``out``; returns the files written."""
     import matplotlib
 
@@ -202,10 +202,10 @@ def write_report(result: Result, out: Path, dynamic: dict | None = None) -> list
 
     _style(plt)
     files: list[Path] = []
-    figs = [("summary", _summary_page(plt, result, dynamic))]
+    figs = [("summary", _summary_page(plt, result))]
     if result.built is not None and result.pushover is not None and result.pushover.records:
         if "rotation" in result.curve:
-            figs.append(("moment_rotation", _curve_figure(plt, result, dynamic)))
+            figs.append(("moment_rotation", _curve_figure(plt, result)))
         figs.append(("model", _model_figure(plt, result)))
         figs.append(("deformed", _model_figure(plt, result, deformed=True)))
         figs.append(("pile_forces", _piles_figure(plt, result)))

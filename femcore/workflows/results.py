@@ -1,75 +1,29 @@
 """Result files: result.json, curve.csv and fields.vtu (meshio) in an output folder.
 
-result.json carries ``schema_version``; its layout is DESIGN 5.3: status, curve (arrays),
-keypoints (value, unit, method, parameters), requirements (pass/fail, margins), piles (per
-row), model (nodes, DOFs, elements, L, rows, versions), timings.
+``result.json`` is exactly :meth:`femcore.foundation.run.Result.to_dict`: schema versions,
+status, curve (arrays), key points (value, unit, method, parameters), dynamic stiffness,
+requirement checks (value, required, pass/fail, margin), pile envelopes (per row), model
+(nodes, DOFs, elements, slice length, rows, versions), stages, timings and the caution.
 """
 
 from __future__ import annotations
 
 import csv
 import json
-import platform
 from pathlib import Path
 
 import numpy as np
 
-from femcore import __version__
-from femcore.foundation.design import SCHEMA_VERSION
-from femcore.foundation.run import Result
+from femcore.foundation.records import CAUTION
+from femcore.foundation.run import RESULT_SCHEMA_VERSION, Result
 from femcore.model import SolidBlock
 
-__all__ = ["write_result_json", "write_curve_csv", "write_fields", "result_dict",
+__all__ = ["write_result_json", "write_curve_csv", "write_fields", "result_file_model",
            "RESULT_SCHEMA_VERSION", "CAUTION"]
 
-RESULT_SCHEMA_VERSION = "1"
 
-CAUTION = (
-    "Indicative results of a simplified 2D model with idealised soil behaviour; not a "
-    "foundation design. Design and certification must follow the turbine supplier's "
-    "foundation specification, IEC 61400-6, the applicable national codes (e.g. EN 1997-1 "
-    "with its national annex, EN 1992-1-1) and be carried out or checked by a qualified, "
-    "licensed engineer. Cyclic, fatigue, long-term tilt and construction stages are outside "
-    "a monotonic pushover."
-)
-
-
-def _clean(obj):
-    """JSON-safe copy: numpy to lists/floats, NaN/inf to None."""
-    if isinstance(obj, dict):
-        return {str(k): _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return _clean(obj.tolist())
-    if isinstance(obj, (np.floating, float)):
-        v = float(obj)
-        return v if np.isfinite(v) else None
-    if isinstance(obj, (np.integer,)):
-        return int(obj)
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    return obj
-
-
-def result_dict(result: Result, extra: dict | None = None) -> dict:
-    import gmsh
-    import scipy
-
-    d = result.to_dict()
-    d["schema_version"] = RESULT_SCHEMA_VERSION
-    d["design_schema_version"] = SCHEMA_VERSION
-    d["model"]["versions"] = {"tiltfe": __version__, "python": platform.python_version(),
-                              "numpy": np.__version__, "scipy": scipy.__version__,
-                              "gmsh": gmsh.__version__}
-    d["caution"] = CAUTION
-    if extra:
-        d.update(extra)
-    return _clean(d)
-
-
-def write_result_json(result: Result, path: Path, extra: dict | None = None) -> Path:
-    path.write_text(json.dumps(result_dict(result, extra), indent=1))
+def write_result_json(result: Result, path: Path) -> Path:
+    path.write_text(json.dumps(result.to_dict(), indent=1))
     return path
 
 
@@ -154,20 +108,40 @@ def result_file_model():
         parameters: dict
         extra: dict
 
+    class Requirement(BaseModel):
+        model_config = ConfigDict(extra="forbid")
+        name: str
+        value: float | None
+        required: float
+        unit: str
+        passed: bool | None
+        margin: float | None
+        detail: str
+        extra: dict
+
+    class Dynamic(BaseModel):
+        model_config = ConfigDict(extra="forbid")
+        value: float | None
+        moduli: str
+        rotation: float | None
+        dofs: int | None
+        reason: str | None
+
     class ResultFile(BaseModel):
         model_config = ConfigDict(extra="forbid")
-        schema_version: Literal["1"]
+        schema_version: Literal["2"]
         design_schema_version: str
         status: Literal["ok", "censored", "diverged"]
         message: str
         design: str
         curve: dict[str, list[float | None]]
         keypoints: dict[str, KeyPointOut]
-        requirements: dict[str, dict]
+        requirements: dict[str, Requirement]
+        dynamic: Dynamic | None
         piles: list[dict]
         model: dict
+        stages: list[dict]
         timings: dict
         caution: str
-        dynamic: dict | None = None
 
     return ResultFile
