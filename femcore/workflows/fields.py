@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 from numpy.typing import NDArray
 
-from .mesh import Mesh
+from femcore.mesh import Mesh
 
 __all__ = ["write_vtu", "nodal_average"]
 
