@@ -309,11 +309,20 @@ def run_sample(design_data: dict, time_limit: float, retries: int) -> dict:
                     "attempts": attempts, "seconds": time.perf_counter() - t0}
         if result.status != "diverged":
             break
+    full = result.to_dict()
+    kps = dict(full["keypoints"])
+    kps_values = {k: v["value"] for k, v in kps.items()}
+    dyn = full.get("dynamic") or {}
+    kps_values["dynamic_stiffness"] = dyn.get("value")
+    for name, chk in full.get("requirements", {}).items():
+        kps_values[f"req.{name}.value"] = chk["value"]
+        kps_values[f"req.{name}.passed"] = chk["passed"]
+        kps_values[f"req.{name}.margin"] = chk["margin"]
     rec = {"status": result.status, "message": result.message, "attempts": attempts,
            "seconds": time.perf_counter() - t0,
-           "keypoints": {k: v.value for k, v in result.keypoints.items()},
-           "keypoint_methods": {k: v.method for k, v in result.keypoints.items()},
-           "piles": result.piles, "timings": result.timings,
+           "keypoints": kps_values,
+           "keypoint_methods": {k: v["method"] for k, v in kps.items()},
+           "piles": full["piles"], "timings": result.timings,
            "model": {"dofs": result.model["dofs"], "rows": len(result.model["rows"]),
                      "slice_length_m": result.model["slice_length_m"]}}
     if "rotation" in result.curve and len(result.curve["rotation"]):
@@ -329,16 +338,15 @@ def run_sample(design_data: dict, time_limit: float, retries: int) -> dict:
 @functools.lru_cache(maxsize=1)
 def _versions() -> tuple[str, str | None, str]:
     """tiltfe version, git hash of the source tree (None outside a checkout), gmsh version."""
-    import gmsh
-
     from femcore import __version__
+    from meshing import gmsh_version
 
     try:
         git = subprocess.run(["git", "rev-parse", "--short", "HEAD"], capture_output=True,
                              text=True, cwd=Path(__file__).parent, timeout=5).stdout.strip()
     except Exception:  # pragma: no cover - no git
         git = ""
-    return __version__, git or None, gmsh.__version__
+    return __version__, git or None, gmsh_version()
 
 
 def _provenance(design_data: dict) -> dict:
@@ -527,7 +535,7 @@ def export_rows(store_path: str | Path) -> tuple[list[str], list[dict]]:
         row.update({"status": r["status"], "message": r["message"],
                     "attempts": r["attempts"], "seconds": r["seconds"]})
         for k, v in (r["keypoints"] or {}).items():
-            row[f"kp.{k}"] = v
+            row[k if k.startswith("req.") or k == "dynamic_stiffness" else f"kp.{k}"] = v
         curve = r["curve"] or {}
         for i, (t, m) in enumerate(zip(curve.get("rotation", []), curve.get("moment", []),
                                        strict=True)):
