@@ -1,14 +1,19 @@
-"""Training-data campaigns: sampling, local and Dask execution, crash-resume, invalid samples,
-export round trip.
+"""Training-data campaigns: the space schema and its up-front checks, bounded formulas,
+sampling, local and Dask execution, crash-resume, stores of the older layout, typed records,
+invalid samples, and the export with the requirement and dynamic-stiffness columns.
 
-References: reproducibility and exactly-once storage are the contract of DESIGN 5.4 (a
-campaign never loses a finished result); scrambled Sobol' points come from scipy.stats.qmc
-(Roberts et al., scipy 1.7+), so a fixed seed gives identical samples.
+Expectations: a campaign stores every sample exactly once and never loses a finished run;
+scrambled Sobol' points come from scipy.stats.qmc, so a fixed seed gives identical samples;
+each exported result equals that of a direct run of the stored design (same code, same
+inputs) and the requirement margins equal value / required - 1.
 """
 
+import copy
 import csv
 import json
+import math
 import os
+import re
 import signal
 import sqlite3
 import subprocess
@@ -19,18 +24,29 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from femcore.foundation.design import design_from_dict
+from femcore.foundation.dynamic import dynamic_stiffness
+from femcore.foundation.run import run_design
 from femcore.workflows.campaign import (
+    RunRecord,
     SpaceError,
     Store,
+    design_dict,
     evaluate_formula,
     export,
+    export_rows,
     load_space,
     run_campaign,
+    run_sample,
     sample_space,
+    space_json_schema,
+    status_summary,
 )
+from femcore.workflows.campaign.space import space_from_dict
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "examples" / "fennwick_fw07.toml"
+SMALL = ROOT / "examples" / "small_group_springs.toml"
 
 
 def _space(tmp_path: Path, size=8, extra="", diameter=(19.0, 25.0), support=None,
@@ -88,9 +104,38 @@ def test_formulas_are_arithmetic_only():
     assert evaluate_formula("round(2 * pi * piles.rings.0.radius / (5 * piles.width))",
                             data) == round(2 * np.pi * 9.9 / 2.25)
     assert evaluate_formula("cap.diameter / 2 - 1.1", data) == pytest.approx(9.9)
-    for bad in ("__import__('os')", "cap.diameter.__class__", "open('x')", "[1, 2]"):
-        with pytest.raises((SpaceError, KeyError, TypeError)):
+    assert evaluate_formula("-2 ** 2 + max(1, 3) * 1e3", data) == -4 + 3000.0
+    for bad, why in [("__import__('os')", "unknown function '__import__'"),
+                     ("cap.diameter.__class__", "cap.diameter is the value 22.0"),
+                     ("open('x')", "unknown function 'open'"), ("[1, 2]", "not allowed"),
+                     ("(1).real", "not allowed"), ("cap.diameter if 1 else 2", "not allowed"),
+                     ("diameter / 2", "unknown name 'diameter'"),
+                     ("cap.radius / 2", "cap has no key 'radius'"),
+                     ("cap.diameter /", "not a valid expression"),
+                     ("1 / (cap.diameter - 22)", "ZeroDivisionError"),
+                     ("(-8) ** 0.5", "not a real number")]:
+        with pytest.raises(SpaceError, match=re.escape(why)):
             evaluate_formula(bad, data)
+
+
+@pytest.mark.parametrize("formula, why", [
+    ("10 ** 10 ** 10", "exponent 1e+10 exceeds 64"),  # unbounded, this would never finish
+    ("2 ** 65", "exponent 65 exceeds 64"),
+    ("(10 ** 60) ** 6", "beyond the bound of 1e+300"),
+    ("1e300 * 10", "beyond the bound of 1e+300"),
+    ("round(1.5, 10 ** 20)", "round(x, n) needs an integer n"),
+    ("-" * 60 + "1", "too complex"),
+    ("+".join(["1"] * 120), "too complex"),
+    ("(" * 300 + "1" + ")" * 300, "nested parentheses"),
+    ("1" * 3000, "at most 2000"),
+], ids=["tower", "pow65", "pow_result", "product", "round_digits", "unary_chain", "long_sum",
+        "parentheses", "length"])
+def test_formulas_are_bounded(formula, why):
+    t = time.perf_counter()
+    with pytest.raises(SpaceError, match=re.escape(why)):
+        evaluate_formula(formula, {})
+    assert time.perf_counter() - t < 0.5
+    assert evaluate_formula("2 ** 64", {}) == 18446744073709551616  # the largest exponent
 
 
 @pytest.fixture(scope="module")
@@ -216,3 +261,373 @@ def test_campaign_cli_status_and_bad_space(tmp_path, capsys):
     assert cli.main(["campaign", "run", str(bad), "--store", str(tmp_path / "x.sqlite")]) == 2
     assert "distribution" in capsys.readouterr().err
     assert cli.main(["campaign", "export", str(store), "--out", str(tmp_path / "t.xlsx")]) == 2
+
+
+# ----------------------------------------------------------------------------- the schema
+GOOD = {"base": SMALL.as_posix(),
+        "parameter": [{"path": "cap.diameter", "low": 7.6, "high": 9.0},
+                      {"path": "soil.layers.0.su", "distribution": "loguniform", "low": 15.0,
+                       "high": 25.0},
+                      {"path": "piles.length", "distribution": "choice", "values": [12.0, 15.0]}],
+        "derived": [{"path": "piles.rings.0.radius", "formula": "cap.diameter / 2 - 0.8"}],
+        "sampling": {"method": "sobol", "size": 4, "seed": 5},
+        "run": {"retries": 1}}
+
+
+def _set(where, key, value):
+    def change(d):
+        node = d
+        for k in where:
+            node = node[k]
+        if value is _DROP:
+            node.pop(key)
+        else:
+            node[key] = value
+    return change
+
+
+_DROP = object()
+BAD_SPACES = {  # id: (change, the message's field = value, what is allowed)
+    "top_key": (_set((), "sise", 4), "sise = 4: unknown key", "base, analysis, parameter"),
+    "sampling_key": (_set(("sampling",), "sise", 4), "sampling.sise = 4: unknown key",
+                     "method, size, seed, holdout, holdout_seed"),
+    "parameter_key": (_set(("parameter", 0), "hihg", 9.0), "parameter.0.hihg = 9.0: unknown",
+                      "path, distribution, low, high, values"),
+    "derived_key": (_set(("derived", 0), "formla", "1"), "derived.0.formla = '1': unknown",
+                    "path, formula"),
+    "run_key": (_set(("run",), "time_limt", 5), "run.time_limt = 5: unknown",
+                "time_limit, retries, dynamic"),
+    "distribution": (_set(("parameter", 2), "distribution", "normal"),
+                     "parameter.2.distribution = 'normal'", "'uniform', 'loguniform' or "
+                     "'choice'"),
+    "size_text": (_set(("sampling",), "size", "8"), "sampling.size = '8'",
+                  "an integer from 1 to 1048576 samples"),
+    "size_zero": (_set(("sampling",), "size", 0), "sampling.size = 0", "from 1 to 1048576"),
+    "size_sobol": (_set(("sampling",), "size", 12), "sampling.size = 12", "power of two"),
+    "seed_float": (_set(("sampling",), "seed", 1.5), "sampling.seed = 1.5",
+                   "an integer from 0 to 4294967295"),
+    "holdout_negative": (_set(("sampling",), "holdout", -1), "sampling.holdout = -1",
+                         "from 0 to 1048576 samples"),
+    "holdout_seed": (lambda d: d["sampling"].update(holdout=2, holdout_seed=5),
+                     "sampling.holdout_seed = 5", "must differ from seed = 5"),
+    "retries_negative": (_set(("run",), "retries", -1), "run.retries = -1",
+                         "an integer from 0 to 5"),
+    "retries_high": (_set(("run",), "retries", 6), "run.retries = 6", "from 0 to 5"),
+    "retries_bool": (_set(("run",), "retries", True), "run.retries = True", "from 0 to 5"),
+    "time_limit_zero": (_set(("run",), "time_limit", 0), "run.time_limit = 0",
+                        "> 0 and <= 86400 s"),
+    "time_limit_text": (_set(("run",), "time_limit", "fast"), "run.time_limit = 'fast'",
+                        "> 0 and <= 86400 s"),
+    "dynamic_text": (_set(("run",), "dynamic", "no"), "run.dynamic = 'no'", "true or false"),
+    "low_nan": (_set(("parameter", 0), "low", math.nan), "parameter.0.low = nan",
+                "a finite number below high"),
+    "high_below_low": (_set(("parameter", 0), "high", 7.0), "parameter.0.high = 7.0",
+                       "greater than low = 7.6"),
+    "high_missing": (_set(("parameter", 0), "high", _DROP), "parameter.0.high: required",
+                     "finite number"),
+    "loguniform_zero": (_set(("parameter", 1), "low", 0.0), "parameter.1.low = 0.0",
+                        "loguniform needs low > 0"),
+    "choice_empty": (_set(("parameter", 2), "values", []), "parameter.2.values = []",
+                     "a non-empty list"),
+    "choice_missing": (_set(("parameter", 2), "values", _DROP), "parameter.2.values: required",
+                       "non-empty list"),
+    "unknown_path": (_set(("parameter", 0), "path", "cap.diamter"),
+                     "parameter.0.path = 'cap.diamter'", "cap has no key 'diamter'; it is a "
+                     "table with keys: E, centre_thickness, contact, diameter"),
+    "index_out_of_range": (_set(("parameter", 1), "path", "soil.layers.7.su"),
+                           "parameter.1.path = 'soil.layers.7.su'",
+                           "soil.layers has no entry 7; it is a list of 2 entries (indices 0 "
+                           "to 1)"),
+    "integer_field": (_set(("parameter", 0), "path", "piles.rings.0.count"),
+                      "parameter.0.distribution = 'uniform'", "is an integer (base value 8)"),
+    "derived_path": (_set(("derived", 0), "path", "piles.ring.0.radius"),
+                     "derived.0.path = 'piles.ring.0.radius'", "piles has no key 'ring'"),
+    "formula_syntax": (_set(("derived", 0), "formula", "cap.diameter / "),
+                       "derived.0.formula = 'cap.diameter / '", "not a valid expression"),
+    "formula_name": (_set(("derived", 0), "formula", "diameter / 2"),
+                     "derived.0.formula = 'diameter / 2'", "unknown name 'diameter'"),
+    "formula_path": (_set(("derived", 0), "formula", "cap.radius - 0.8"),
+                     "derived.0.formula = 'cap.radius - 0.8'", "reads 'cap.radius', which is "
+                     "no value of the base design"),
+    "formula_power": (_set(("derived", 0), "formula", "10 ** 10 ** 10"),
+                      "derived.0.formula = '10 ** 10 ** 10'", "exponent 1e+10 exceeds 64"),
+    "analysis_key": (_set((), "analysis", {"mesh_size": 3}), "analysis.mesh_size",
+                     "unknown key (value 3)"),
+    "no_parameters": (_set((), "parameter", _DROP), "parameter: required",
+                      "one or more [[parameter]] tables"),
+}
+
+
+@pytest.mark.parametrize("case", list(BAD_SPACES))
+def test_bad_space_names_field_value_and_allowed(case):
+    change, field, allowed = BAD_SPACES[case]
+    data = copy.deepcopy(GOOD)
+    change(data)
+    t = time.perf_counter()
+    with pytest.raises(SpaceError) as info:
+        space_from_dict(data)
+    assert time.perf_counter() - t < 1.0  # refused up front, before any run
+    assert field in str(info.value) and allowed in str(info.value), str(info.value)
+
+
+def test_good_space_and_json_schema(tmp_path):
+    sp = space_from_dict(copy.deepcopy(GOOD))
+    assert (sp.size, sp.seed, sp.retries, sp.time_limit, sp.dynamic) == (4, 5, 1, 600.0, True)
+    schema = space_json_schema()
+    assert set(schema["properties"]) == {"base", "analysis", "parameter", "derived",
+                                         "sampling", "run"}
+    assert all(d["additionalProperties"] is False for d in schema["$defs"].values())
+    assert "0 to 5" in schema["$defs"]["RunSpec"]["properties"]["retries"]["description"]
+    # the same through a TOML file: a NaN bound is refused there too
+    text = (f'base = "{SMALL.as_posix()}"\n[[parameter]]\npath = "cap.diameter"\n'
+            "low = nan\nhigh = 9.0\n")
+    (tmp_path / "nan.toml").write_text(text)
+    with pytest.raises(SpaceError, match=re.escape("parameter.0.low = nan")):
+        load_space(tmp_path / "nan.toml")
+
+
+# ----------------------------------------------------------------------------- springs runs
+def _springs_space(tmp_path: Path, name="springs.toml", run="", size=4, base=SMALL) -> Path:
+    """A tiny space on the springs-only example (about 0.1 s per run)."""
+    text = f'''base = "{base.as_posix()}"
+[[parameter]]
+path = "cap.diameter"
+low = 7.6
+high = 9.0
+[[parameter]]
+path = "soil.layers.0.su"
+distribution = "loguniform"
+low = 15.0
+high = 25.0
+[[parameter]]
+path = "piles.length"
+distribution = "choice"
+values = [12.0, 15.0]
+[[derived]]
+path = "piles.rings.0.radius"
+formula = "cap.diameter / 2 - 0.8"
+[[derived]]
+path = "piles.rings.0.count"
+formula = "round(2 * pi * piles.rings.0.radius / (5 * piles.width))"
+[[derived]]                     # not in the base file: a default of the design schema
+path = "requirements.dynamic_stiffness_min"
+formula = "1.0e7"
+[sampling]
+method = "sobol"
+size = {size}
+seed = 5
+[run]
+{run}
+'''
+    p = tmp_path / name
+    p.write_text(text)
+    return p
+
+
+@pytest.fixture(scope="module")
+def springs_stores(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("springs")
+    with_dyn, without = tmp / "dyn.sqlite", tmp / "nodyn.sqlite"
+    run_campaign(_springs_space(tmp), with_dyn, workers=1, quiet=True)
+    run_campaign(_springs_space(tmp, "nodyn.toml", "dynamic = false"), without, workers=1,
+                 quiet=True)
+    return tmp, with_dyn, without
+
+
+def test_derived_values_follow_the_formulas(springs_stores):
+    _, store, _ = springs_stores
+    rows = Store(store).rows()
+    assert len(rows) == 4
+    for r in rows:
+        d = r["inputs"]
+        radius = d["cap"]["diameter"] / 2 - 0.8
+        assert d["piles"]["rings"][0]["radius"] == radius
+        assert d["piles"]["rings"][0]["count"] == round(2 * math.pi * radius / (5 * 0.4))
+        assert d["requirements"]["dynamic_stiffness_min"] == 1.0e7
+        assert 15.0 <= d["soil"]["layers"][0]["su"] <= 25.0
+        assert d["piles"]["length"] in (12.0, 15.0)
+
+
+def test_export_has_dynamic_and_requirement_columns(springs_stores, tmp_path):
+    _, store, _ = springs_stores
+    rows = Store(store).rows()
+    with export(store, tmp_path / "t.csv").open() as fh:
+        table = list(csv.DictReader(fh))
+    assert {"dynamic_stiffness", "req.static_stiffness.value", "req.static_stiffness.passed",
+            "req.static_stiffness.margin", "req.dynamic_stiffness.margin"} <= set(table[0])
+    for t, r in zip(table, rows, strict=True):
+        assert r["status"] in ("ok", "censored")
+        design = design_from_dict(r["inputs"])
+        direct = run_design(design).to_dict()  # the same design run outside the campaign
+        k_dyn = dynamic_stiffness(design).value
+        assert float(t["dynamic_stiffness"]) == pytest.approx(k_dyn, rel=1e-12)
+        # the static check: secant M / theta at M = 5000 kNm, interpolated on the direct curve
+        th = np.concatenate([[0.0], direct["curve"]["rotation"]])
+        m = np.concatenate([[0.0], direct["curve"]["moment"]])
+        k_static = 5000.0 / np.interp(5000.0, m, th)
+        assert float(t["req.static_stiffness.value"]) == pytest.approx(k_static, rel=1e-9)
+        assert float(t["req.static_stiffness.margin"]) == pytest.approx(k_static / 2.0e6 - 1,
+                                                                        rel=1e-9)
+        assert t["req.static_stiffness.passed"] == str(k_static >= 2.0e6)
+        assert float(t["req.dynamic_stiffness.margin"]) == pytest.approx(k_dyn / 1.0e7 - 1,
+                                                                         rel=1e-9)
+        assert k_dyn > k_static  # small-strain moduli G0 are stiffer than the operational E
+        for i in (0, 10, 39):
+            assert float(t[f"theta_{i:02d}"]) == pytest.approx(
+                np.geomspace(1e-6, 0.01, 40)[i], rel=1e-12)
+
+
+def test_dynamic_false_skips_the_dynamic_stiffness(springs_stores):
+    _, with_dyn, without = springs_stores
+    cols, rows = export_rows(without)
+    _, ref = export_rows(with_dyn)
+    assert "dynamic_stiffness" in cols and len(rows) == 4
+    for a, b in zip(rows, ref, strict=True):
+        assert a["dynamic_stiffness"] is None and b["dynamic_stiffness"] > 0
+        assert a["req.dynamic_stiffness.value"] is None
+        assert a["req.dynamic_stiffness.passed"] is None  # not decided without the analysis
+        # the pushover and its static check do not depend on the switch (same samples)
+        assert a["cap.diameter"] == b["cap.diameter"]
+        assert a["req.static_stiffness.value"] == b["req.static_stiffness.value"]
+    assert all(r.dynamic is None for r in Store(without).records().values())
+
+
+def test_resume_runs_only_the_missing_samples(tmp_path):
+    base = tmp_path / "base.toml"
+    base.write_text(SMALL.read_text())
+    space = _springs_space(tmp_path, base=base)
+    store = tmp_path / "resume.sqlite"
+    first = run_campaign(space, store, workers=1, quiet=True, limit=2)
+    assert (first["finished"], first["remaining"], first["planned"]) == (2, 2, 4)
+    before = {r["sample_id"]: r["finished_at"] for r in Store(store).rows()}
+    assert sorted(before) == [0, 1]
+    run_campaign(space, store, workers=1, quiet=True)
+    after = {r["sample_id"]: r["finished_at"] for r in Store(store).rows()}
+    assert sorted(after) == [0, 1, 2, 3]
+    assert all(after[k] == before[k] for k in before)  # finished rows not run again
+    other = _springs_space(tmp_path, "other.toml", "retries = 2", base=base)
+    with pytest.raises(SpaceError, match="belongs to another space"):
+        run_campaign(other, store, workers=1, quiet=True)
+    base.write_text(SMALL.read_text().replace("vertical = 2000.0", "vertical = 2100.0"))
+    with pytest.raises(SpaceError, match="the base design changed"):
+        run_campaign(space, store, workers=1, quiet=True)
+
+
+OLD_LAYOUT = """
+CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT);
+CREATE TABLE runs (
+    sample_id INTEGER PRIMARY KEY, sample_set TEXT, unit TEXT, inputs TEXT,
+    status TEXT, message TEXT, attempts INTEGER, seconds REAL, keypoints TEXT,
+    curve TEXT, piles TEXT, timings TEXT, model TEXT, provenance TEXT, finished_at REAL);
+"""
+
+
+def test_store_of_the_old_layout_reopens_and_resumes(tmp_path):
+    space_path = _springs_space(tmp_path)
+    space = load_space(space_path)
+    s0 = sample_space(space)[0]
+    store = tmp_path / "old.sqlite"
+    db = sqlite3.connect(store)
+    db.executescript(OLD_LAYOUT)
+    db.execute("INSERT INTO meta VALUES ('space_digest', ?)", (json.dumps(space.digest()),))
+    db.execute("INSERT INTO meta VALUES ('space', ?)", (json.dumps(space.source),))
+    db.execute("INSERT INTO runs VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+               (0, "train", json.dumps(s0["unit"]), json.dumps(design_dict(space, s0)), "ok",
+                "", 1, 0.25, json.dumps({"initial_stiffness": 123.0}), "null", "null", "null",
+                "null", json.dumps({"tiltfe": "old"}), 1000.0))
+    db.commit()
+    db.close()
+    summary = status_summary(store)  # planned from the stored space file
+    assert (summary["planned"], summary["finished"], summary["remaining"]) == (4, 1, 3)
+    run_campaign(space_path, store, workers=1, quiet=True)
+    cols = {c[1] for c in sqlite3.connect(store).execute("PRAGMA table_info(runs)")}
+    assert {"requirements", "dynamic", "dynamic_stiffness"} <= cols
+    rows = Store(store).rows()
+    assert [r["sample_id"] for r in rows] == [0, 1, 2, 3]
+    assert (rows[0]["finished_at"], rows[0]["keypoints"]) == (1000.0, {"initial_stiffness":
+                                                                        123.0})
+    assert rows[0]["requirements"] is None and rows[0]["dynamic_stiffness"] is None
+    assert all(r["dynamic_stiffness"] > 0 and "static_stiffness" in r["requirements"]
+               for r in rows[1:])
+    _, table = export_rows(store)
+    assert table[0]["dynamic_stiffness"] is None and table[0]["kp.initial_stiffness"] == 123.0
+    assert table[1]["req.static_stiffness.margin"] == pytest.approx(
+        table[1]["req.static_stiffness.value"] / 2.0e6 - 1, rel=1e-12)
+
+
+def test_run_record_round_trip_through_the_store(tmp_path):
+    rec = RunRecord("censored", "no plateau", 2, 0.5, {"ultimate": 9.5e4, "yield": None},
+                    {"capacity": {"value": 1.0, "required": 2.0, "unit": "kNm", "passed": False,
+                                  "margin": -0.5, "detail": "d"}},
+                    {"value": 3.0e7, "moduli": "G0", "reason": None},
+                    {"rotation": [1e-6, 1e-3], "moment": [1.0, None]}, [{"row": 1}],
+                    {"total_s": 0.5}, {"dofs": 10})
+    assert RunRecord.from_row(rec.to_row()) == rec
+    assert rec.to_row()["dynamic_stiffness"] == 3.0e7
+    with Store(tmp_path / "r.sqlite") as st:
+        st.add({"id": 7, "set": "holdout", "unit": [0.5]}, {"x": 1}, rec, {"git": None})
+        assert st.records() == {7: rec}
+        assert st.rows()[0]["dynamic_stiffness"] == 3.0e7
+
+
+class _FakeResult:
+    def __init__(self, status):
+        self.status = status
+
+    def to_dict(self):
+        return {"status": self.status, "message": f"{self.status} run", "keypoints": {},
+                "curve": {}, "piles": [], "model": {}, "timings": {}}
+
+
+def test_run_sample_retries_timeouts_and_failures(monkeypatch, tmp_path):
+    import femcore.foundation.run as run_module
+
+    space = load_space(_springs_space(tmp_path))
+    data = design_dict(space, sample_space(space)[0])
+    # every outcome is a record: a design the schema refuses, a run over its time limit
+    bad = run_sample({"name": "x"}, 10.0, 1)
+    assert bad.status == "invalid_input" and "soil: required field is missing" in bad.message
+    slow = run_sample(data, 1e-3, 1)
+    assert (slow.status, slow.attempts) == ("timeout", 1) and "time limit of 0.001 s" in \
+        slow.message
+    seen = []
+
+    def diverging(design, progress=None, dynamic=True):
+        seen.append(design.loading.initial_increment)
+        return _FakeResult("diverged" if len(seen) < 3 else "ok")
+
+    monkeypatch.setattr(run_module, "run_design", diverging)
+    rec = run_sample(data, 10.0, 2)
+    assert (rec.status, rec.attempts, rec.message) == ("ok", 3, "ok run")
+    assert seen == pytest.approx([2e-6, 5e-7, 1.25e-7], rel=1e-12)  # 4x smaller each retry
+    seen.clear()
+    rec = run_sample(data, 10.0, 1)
+    assert (rec.status, rec.attempts, len(seen)) == ("diverged", 2, 2)
+
+    def broken(design, progress=None, dynamic=True):
+        raise RuntimeError("boom")
+
+    monkeypatch.setattr(run_module, "run_design", broken)
+    rec = run_sample(data, 10.0, 1)
+    assert (rec.status, rec.message, rec.attempts) == ("error", "RuntimeError: boom", 1)
+
+
+def test_failing_derived_value_is_recorded_as_invalid_input(tmp_path):
+    space = tmp_path / "sqrt.toml"
+    extra = ('formula = "1.0e7"\n[[derived]]\npath = "soil.layers.0.su_gradient"\n'
+             'formula = "sqrt(cap.diameter - 8.25)"')
+    space.write_text(_springs_space(tmp_path).read_text().replace('formula = "1.0e7"', extra))
+    store = tmp_path / "sqrt.sqlite"
+    run_campaign(space, store, workers=1, quiet=True)
+    expected = {s["id"] for s in sample_space(load_space(space))
+                if s["values"]["cap.diameter"] < 8.25}  # sqrt of a negative number
+    _, rows = export_rows(store)
+    invalid = {r["sample_id"] for r in rows if r["status"] == "invalid_input"}
+    assert invalid == expected and 0 < len(invalid) < 4
+    for r in rows:
+        assert r["cap.diameter"] is not None  # the sampled inputs are kept
+        if r["sample_id"] in invalid:
+            assert "math domain error" in r["message"] and r["kp.initial_stiffness"] is None
+        else:
+            assert r["soil.layers.0.su_gradient"] == pytest.approx(
+                math.sqrt(r["cap.diameter"] - 8.25), rel=1e-12)
