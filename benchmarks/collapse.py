@@ -1,6 +1,6 @@
 """Collapse-load validation cases on standard (full) or coarse (quick) meshes.
 
-Each case: reference value, published source, one-sided band (VALIDATION.md), element, and
+Each case: reference value, published source, one-sided band (docs/validation.md), element, and
 the increments / Newton iterations / seconds it took. References:
 
 * prandtl_{rough,smooth}_{T6,T15}: q_u = (2 + pi) s_u (Prandtl 1920; Hill 1950, *The

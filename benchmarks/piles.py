@@ -1,4 +1,5 @@
-"""Single piles and rigid caps on springs: the beam/spring/cap mechanics checks (VALIDATION E).
+"""Single piles and rigid caps on springs: the beam/spring/cap mechanics checks (docs/validation.md
+E).
 
 Helpers build a vertical Euler-Bernoulli pile (head at y = 0, down to y = -L) on springs
 anchored to fixed ground, driven through a reference point at the head (free or fixed head),

@@ -1,5 +1,5 @@
 """Validation cases beyond the collapse loads: elastic continuum, material point, piles,
-contact (VALIDATION A, B, E, C13). Each case returns (computed value, info) and carries its
+contact (docs/validation.md, A, B, E, C13). Each case returns (computed value, info) and carries its
 reference, published source and band; ``benchmarks.collapse.CASES`` holds the collapse ones.
 """
 
@@ -98,7 +98,7 @@ def _return_map(quick: bool):
 
 CASES: dict[str, Case] = {c.name: c for c in [
     Case("return_map_main_plane", -122.624, (-5e-6, 5e-6),
-         "VALIDATION A2 [C]; de Souza Neto, Peric & Owen 2008", _return_map),
+         "de Souza Neto, Peric & Owen 2008 (docs/validation.md, A2)", _return_map),
     Case("strip_sigma_x_at_2b", 0.0405, (-0.02, 0.02), "Poulos & Davis 1974", _strip_sigma_x),
     Case("rocking_smooth_strip", 1.0, (-0.02, 0.05), "Gazetas 1991 (K = pi G b^2 / 2(1-nu))",
          _rocking),

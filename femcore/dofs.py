@@ -4,7 +4,7 @@ Numbering: soil/cap nodes first, two DOFs each, interleaved node-major (``2*node
 d = 0 for u_x, 1 for u_y); then groups of 3-DOF points (beam nodes, reference points), three
 DOFs each (u_x, u_y, theta).
 
-Rotation sign (DESIGN convention): a positive reference rotation ``theta`` tilts the body so
+Rotation sign (docs/conventions.md): a positive reference rotation ``theta`` tilts the body so
 that its +x side goes down, i.e. theta is positive clockwise. A node at (x, y) tied to a
 reference point at (x_r, y_r) moves as::
 

@@ -1,4 +1,4 @@
-"""Initial stresses: K0 procedure for a layered, level profile with a water table.
+"""Initial stresses: at-rest (K0) stresses of a layered, level profile with a water table.
 
 Drained layers carry effective stresses in the material state; the steady pore pressure acts
 as a fixed load ``f_pw = int B^T (u m) dV`` (m = [1, 1, 1, 0]), so equilibrium is written in
@@ -8,8 +8,8 @@ Unit weights: ``gamma`` above the water table, ``gamma_sat`` below (kN/m^3).
 
 For level ground the K0 state is in exact equilibrium with gravity (and the pore pressure
 load) whenever it lies in the finite element stress space; :func:`equilibrium_error` measures
-it. The gravity-loading alternative (:func:`gravity_stresses`) solves the elastic problem under
-self-weight instead.
+it. The alternative, a self-weight solve (:func:`gravity_stresses`), solves the elastic problem
+under the weights instead.
 """
 
 from __future__ import annotations
@@ -164,7 +164,7 @@ def equilibrium_error(model: Model, cmap: ConstraintMap, states: list[State],
 
 def gravity_stresses(model: Model, cmap: ConstraintMap, f_ext: NDArray[np.float64],
                      states: list[State] | None = None) -> list[State]:
-    """Gravity loading: one elastic solve under ``f_ext``; returns stressed states with zero
+    """A self-weight solve: one elastic solve under ``f_ext``; returns stressed states with zero
     strain (the displacements of this stage are discarded, as is common practice)."""
     sol = model.solve_linear(cmap, f_ext, states)
     return [replace(st, strain=np.zeros_like(st.strain)) if isinstance(st, State) else st

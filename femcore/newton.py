@@ -1,6 +1,6 @@
 """Newton-Raphson on a residual-and-tangent callback. Knows nothing about materials.
 
-Convergence: ``||r|| <= rtol * scale`` with the scale supplied by the callback (DESIGN 4.5:
+Convergence: ``||r|| <= rtol * scale`` with the scale supplied by the callback (docs/conventions.md:
 max of the external force and reaction norms). The relative residual of every iteration is
 recorded; failure raises :class:`ConvergenceError` carrying that history.
 """

@@ -98,7 +98,7 @@ def residual_callback(model: Model, cmap: ConstraintMap, f_ext: NDArray[np.float
                       states: list[State]):
     """Newton callback for the current prescribed values: ``u_free -> (r, K, scale, payload)``.
 
-    ``scale`` = max(||T^T f_ext||, ||reactions at prescribed DOFs||) (DESIGN 4.5).
+    ``scale`` = max(||T^T f_ext||, ||reactions at prescribed DOFs||) (docs/conventions.md).
     """
     f_ext_red = np.linalg.norm(cmap.reduce_vector(f_ext))
 

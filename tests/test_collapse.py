@@ -1,6 +1,6 @@
-"""Undrained and drained collapse loads (VALIDATION C8-C12, D14, D15).
+"""Undrained and drained collapse loads (docs/validation.md, C8-C12, D14, D15).
 
-Displacement FE over-predicts collapse loads, so the bands are one-sided as VALIDATION.md
+Displacement FE over-predicts collapse loads, so the bands are one-sided as docs/validation.md
 sets them; collapse is the plateau of the reaction (< 0.5 % change over the last 15 % of the
 imposed displacement). Coarse meshes keep the default run fast; the fine-mesh versions are
 `benchmarks/collapse_*.py` (marked slow in tests/test_benchmark_scripts.py).
@@ -28,7 +28,7 @@ def _in_band(value, ref, lo, hi):
 def test_prandtl_strip_two_meshes(element, h_near, hi, rough):
     """q_u = (2 + pi) s_u, smooth and rough (Prandtl 1920; Hill 1950) [M, C].
     T15 0...+2 %, T6 0...+5 %; meshes h and h/2: the fine one inside the band and the error
-    not growing on refinement (VALIDATION general rules)."""
+    not growing on refinement (docs/validation.md, rules for collapse loads)."""
     errs = []
     for h in (h_near, h_near / 2):
         r = run_footing(Footing(Tresca(3000.0, 0.49, SU), element=element, h_near=h,

@@ -1,5 +1,6 @@
-"""Zero-thickness contact: the Coulomb / tension cut-off law, shaft capacity (VALIDATION E21)
-and the effective width of a no-tension base under moment (VALIDATION C13)."""
+"""Zero-thickness contact: the Coulomb / tension cut-off law, shaft capacity (docs/validation.md
+E21)
+and the effective width of a no-tension base under moment (docs/validation.md C13)."""
 
 import numpy as np
 import pytest

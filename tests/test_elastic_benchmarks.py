@@ -1,6 +1,6 @@
-"""Elastic continuum benchmarks (VALIDATION B3, B4, B5) and mirror invariance.
+"""Elastic continuum benchmarks (docs/validation.md B3, B4, B5) and mirror invariance.
 
-Each test names its published source; tolerances are those of VALIDATION.md unless stated.
+Each test names its published source; tolerances are those of docs/validation.md unless stated.
 """
 
 import numpy as np
@@ -16,7 +16,7 @@ from meshing import layered_domain
 
 # --------------------------------------------------------------------------- B3 strip load
 def test_strip_formula_reference_values():
-    # VALIDATION B3 table (q = 1, b = 1): (0, 0.5): sigma_z 0.9595, sigma_x 0.4502;
+    # docs/validation.md B3 table (q = 1, b = 1): (0, 0.5): sigma_z 0.9595, sigma_x 0.4502;
     # (0, 2): 0.5498, 0.0405 -- checks our transcription of the closed form, 1e-4 absolute
     s = strip_stress(np.array([[0.0, -0.5], [0.0, -2.0]]))
     assert np.allclose(-s[:, 1], [0.9595, 0.5498], atol=1e-4)
@@ -46,7 +46,7 @@ def test_strip_load_stresses(element, h, h_near):
     pts = np.array([[0.0, -0.5], [0.0, -2.0], [0.7, -1.3]])
     sig = strain_at(mesh, "plane_strain", sol.u, pts) @ elastic_matrix(E, NU).T
     ref = strip_stress(pts)
-    # +-2 % of each stress (VALIDATION B3), points >= 0.25b from the load edges
+    # +-2 % of each stress (docs/validation.md B3), points >= 0.25b from the load edges
     assert np.allclose(sig[:, 1], ref[:, 1], rtol=0.02, atol=0)
     assert np.allclose(sig[:, 0], ref[:, 0], rtol=0.02, atol=0)
     # the pin carries no load when the applied tractions are in equilibrium
@@ -120,7 +120,8 @@ def test_rigid_circular_punch_with_domain_trend():
 @pytest.mark.parametrize("element", ["T6", "T15"])
 def test_mirror_invariance(element):
     """Mirroring mesh and load about x = 0 mirrors the solution: u_x -> -u_x, u_y -> u_y,
-    sigma_xy -> -sigma_xy (exact symmetry of the equations; VALIDATION F, 1e-10 relative)."""
+    sigma_xy -> -sigma_xy (exact symmetry of the equations; docs/validation.md F, 1e-10
+    relative)."""
     mesh = layered_domain(20.0, 10.0, [2.0], footing=(-1.0, 2.5), h=2.0, h_near=0.3,
                           element=element)
     results = []
@@ -143,7 +144,7 @@ def test_mirror_invariance(element):
 
 
 def test_thin_ring_far_from_axis_matches_plane_strain():
-    """VALIDATION F: an axisymmetric ring of section 1 x 1 m at radius R behaves as the same
+    """docs/validation.md F: an axisymmetric ring of section 1 x 1 m at radius R behaves as the same
     section in plane strain as R grows, the hoop terms falling like 1/R (exact limit of the
     axisymmetric kinematics). At R = 1000 m the top settlement under a uniform pressure agrees
     to 1e-3, and the difference shrinks ten-fold from R = 100 m."""

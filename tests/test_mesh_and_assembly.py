@@ -14,8 +14,8 @@ from conftest import nodal
 from femcore import ConstraintError, Mesh, MeshError, Model
 from femcore.assembly import SparsePattern, element_stiffness
 from femcore.elements import T6
-from femcore.workflows.fields import write_vtu
 from femcore.linsolve import SolverError, available_backends, solve
+from femcore.workflows.fields import write_vtu
 from materials import LinearElastic, MaterialParameterError, elastic_matrix
 from meshing import layered_domain, read_msh, rectangle
 

@@ -115,8 +115,8 @@ def test_k0_state_is_in_equilibrium(element):
     assert res.iterations == 0
 
 
-def test_gravity_loading_alternative_gives_k0_of_nu():
-    """Gravity loading of an elastic layer with lateral rollers: sigma_h / sigma_v =
+def test_self_weight_solve_gives_k0_of_nu():
+    """A self-weight solve of an elastic layer with lateral rollers: sigma_h / sigma_v =
     nu / (1 - nu) (one-dimensional compression, common practice)."""
     prof = Profile((Layer(0.0, 10.0, 18.0, K0=1.0),))
     mesh = layered_domain(6.0, 10.0, h=1.0, element="T6")

@@ -1,4 +1,5 @@
-"""Piles, pile groups, ring lumping, key points and the demo pushover (VALIDATION E16-E19, F).
+"""Piles, pile groups, ring lumping, key points and the demo pushover (docs/validation.md E16-E19,
+F).
 
 Sources are named beside each check; "[M]" marks formulas from memory, "[C]" values computed
 independently here from the stated formula.
@@ -180,7 +181,8 @@ def test_randolph_wroth_axial_head_stiffness(L_r0, ref):
 # --------------------------------------------------------------------------- layout
 def test_ring_lumping_preserves_count_and_second_moment():
     """sum n and sum n x^2 of the pile heads are preserved exactly by the RMS row positions
-    (DESIGN 4.2) [D]; the layout stays symmetric and no two row lines come closer than the
+    (ring-to-row lumping, foundation/layout.py) (derived); the layout stays symmetric and no two
+    row lines come closer than the
     merge distance; L = 16 R / (3 pi) (rigid circle vs strip rocking, Gazetas 1991) [D]."""
     rings = [Ring(9.9, 28, 1 / 6), Ring(6.6, 16, 0.0)]
     rows = lump_rings(rings, merge=1.0, depth=21.0)
@@ -258,7 +260,7 @@ def test_demo_springs_initial_stiffness_equals_sum_k_x2(demo_springs):
 
 
 def test_demo_continuum_sanity(demo_continuum, demo_springs):
-    """VALIDATION F: K_initial within 0.3-3x of the springs-only estimate; M(theta) monotone
+    """docs/validation.md F: K_initial within 0.3-3x of the springs-only estimate; M(theta) monotone
     before the peak; every converged step below the residual tolerance."""
     r = demo_continuum
     assert r.status in ("ok", "censored"), r.message
@@ -322,7 +324,7 @@ def test_fixed_heads_are_stiffer_than_pinned():
 def test_demo_standard_mesh_runs_to_target_rotation():
     """The demo on its standard T15 mesh (about 25k DOFs) reaches the target rotation with
     every increment converged, and its initial stiffness stays within 0.3-3x of the
-    springs-only model (VALIDATION F)."""
+    springs-only model (docs/validation.md F)."""
     r = run_design(demo_design())
     assert r.status in ("ok", "censored"), r.message
     assert r.curve["rotation"][-1] >= 0.005 * (1 - 1e-9)

@@ -120,7 +120,7 @@ def hyperbolic_fit(theta, M, skip: float = 0.0):
 
 def analyse_curve(theta, M, rotations=(), moments=(), initial_rotation: float = 1e-5,
                   plateau_ratio: float = 0.02) -> dict[str, KeyPoint]:
-    """Every key point of DESIGN 4.6 for a curve in (rad, kNm)."""
+    """Every key point of a curve in (rad, kNm): stiffnesses, moments, yield, ultimate."""
     th, m = _curve(theta, M)
     out: dict[str, KeyPoint] = {}
     k0 = secant_at_rotation(th, m, initial_rotation)
