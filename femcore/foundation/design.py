@@ -280,6 +280,10 @@ class Design(_Model):
         return self
 
 
+#: keys of earlier versions of the design file and their new names
+RENAMED = {"piles.interface_factor": "piles.slip_stiffening"}
+
+
 def _format(exc: ValidationError) -> list[str]:
     out = []
     for err in exc.errors(include_url=False):
@@ -287,6 +291,8 @@ def _format(exc: ValidationError) -> list[str]:
         msg = err["msg"].removeprefix("Value error, ")
         if err["type"] == "missing":
             out.append(f"{path}: required field is missing")
+        elif err["type"] == "extra_forbidden" and path in RENAMED:
+            out.append(f"{path}: renamed to {RENAMED[path]} (same meaning and range)")
         elif err["type"] == "extra_forbidden":
             out.append(f"{path}: unknown key (value {err['input']!r}); check the spelling")
         elif ";" in msg and path == "design":
