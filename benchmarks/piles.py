@@ -1,5 +1,4 @@
-"""Single piles and rigid caps on springs: the beam/spring/cap mechanics checks (docs/validation.md
-E).
+"""Single piles and rigid caps on springs: beam, spring and cap checks (docs/validation.md, E1-E4).
 
 Helpers build a vertical Euler-Bernoulli pile (head at y = 0, down to y = -L) on springs
 anchored to fixed ground, driven through a reference point at the head (free or fixed head),

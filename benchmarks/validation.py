@@ -1,6 +1,7 @@
 """Validation cases beyond the collapse loads: elastic continuum, material point, piles,
-contact (docs/validation.md, A, B, E, C13). Each case returns (computed value, info) and carries its
-reference, published source and band; ``benchmarks.collapse.CASES`` holds the collapse ones.
+contact (docs/validation.md, groups A, B and E). Each case returns (computed value, info) and
+carries its reference, published source and band; ``benchmarks.collapse.CASES`` holds the
+collapse ones.
 """
 
 from __future__ import annotations

@@ -1,8 +1,9 @@
 """Newton-Raphson on a residual-and-tangent callback. Knows nothing about materials.
 
-Convergence: ``||r|| <= rtol * scale`` with the scale supplied by the callback (docs/conventions.md:
-max of the external force and reaction norms). The relative residual of every iteration is
-recorded; failure raises :class:`ConvergenceError` carrying that history.
+Convergence: ``||r|| <= rtol * scale``, rtol = 1e-6 by default, with the scale supplied by the
+callback: max(||f_ext||, ||reactions at the prescribed DOFs||) for the stepping driver (see
+docs/conventions.md). The relative residual of every iteration is recorded; failure raises
+:class:`ConvergenceError` carrying that history.
 """
 
 from __future__ import annotations

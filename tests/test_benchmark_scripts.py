@@ -41,7 +41,7 @@ def test_collapse_script_quick_cylinder(tmp_path):
 
 @pytest.mark.slow
 def test_collapse_script_full():
-    """Every collapse case of docs/validation.md, C8-C12, D14, D15 on its standard mesh."""
+    """Every collapse case of docs/validation.md, C1-C5, D1, D2, E5 on its standard mesh."""
     res = subprocess.run([sys.executable, "-m", "benchmarks.collapse"], cwd=ROOT,
                          capture_output=True, text=True, timeout=3600)
     assert res.returncode == 0, res.stdout + res.stderr

@@ -1,8 +1,9 @@
 """The `tiltfe` command end to end, bad input handling and a property-based robustness test.
 
-References: the command-line contract of README.md: exit 0 on success, 2 on bad input with
-one message per problem naming the field; result.json validates against its schema and its
-numbers equal the Python API's for the same design (1e-9 relative).
+References: the command-line and result-file contract described in README.md
+(docs/validation.md, F9): exit 0 on success, 2 on bad input with one message per problem naming
+the field; result.json validates against its schema and its numbers equal the Python API's for
+the same design (1e-9 relative).
 """
 
 import copy

@@ -1,9 +1,10 @@
-"""Undrained and drained collapse loads (docs/validation.md, C8-C12, D14, D15).
+"""Undrained and drained collapse loads (docs/validation.md, C1-C5, D1, D2, E5; Newton: F6).
 
 Displacement FE over-predicts collapse loads, so the bands are one-sided as docs/validation.md
-sets them; collapse is the plateau of the reaction (< 0.5 % change over the last 15 % of the
-imposed displacement). Coarse meshes keep the default run fast; the fine-mesh versions are
-`benchmarks/collapse_*.py` (marked slow in tests/test_benchmark_scripts.py).
+sets them (tags [S], [M], [C], [D] as defined there); collapse is the plateau of the reaction
+(< 0.5 % change over the last 15 % of the imposed displacement). Coarse meshes keep the default
+run fast; the fine-mesh versions are the full run of `benchmarks/collapse.py` (marked slow in
+tests/test_benchmark_scripts.py).
 """
 
 import numpy as np

@@ -1,6 +1,6 @@
-"""Zero-thickness contact: the Coulomb / tension cut-off law, shaft capacity (docs/validation.md
-E21)
-and the effective width of a no-tension base under moment (docs/validation.md C13)."""
+"""Zero-thickness contact: the Coulomb / tension cut-off law (docs/validation.md, A5), shaft
+capacity (E6) and the effective width of a no-tension base under moment (C6). Tags [M], [D] as
+defined in docs/validation.md."""
 
 import numpy as np
 import pytest

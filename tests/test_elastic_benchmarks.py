@@ -1,6 +1,7 @@
-"""Elastic continuum benchmarks (docs/validation.md B3, B4, B5) and mirror invariance.
+"""Elastic continuum benchmarks (docs/validation.md, B5, B6, B7) and mirror invariance (F3, F4).
 
-Each test names its published source; tolerances are those of docs/validation.md unless stated.
+Each test names its published source; tolerances are those of docs/validation.md unless stated
+(tag [C] as defined there).
 """
 
 import numpy as np
@@ -14,9 +15,9 @@ from materials import LinearElastic, elastic_matrix
 from meshing import layered_domain
 
 
-# --------------------------------------------------------------------------- B3 strip load
+# --------------------------------------------------------------------------- B5 strip load
 def test_strip_formula_reference_values():
-    # docs/validation.md B3 table (q = 1, b = 1): (0, 0.5): sigma_z 0.9595, sigma_x 0.4502;
+    # docs/validation.md, B5 table (q = 1, b = 1): (0, 0.5): sigma_z 0.9595, sigma_x 0.4502;
     # (0, 2): 0.5498, 0.0405 -- checks our transcription of the closed form, 1e-4 absolute
     s = strip_stress(np.array([[0.0, -0.5], [0.0, -2.0]]))
     assert np.allclose(-s[:, 1], [0.9595, 0.5498], atol=1e-4)
@@ -46,7 +47,7 @@ def test_strip_load_stresses(element, h, h_near):
     pts = np.array([[0.0, -0.5], [0.0, -2.0], [0.7, -1.3]])
     sig = strain_at(mesh, "plane_strain", sol.u, pts) @ elastic_matrix(E, NU).T
     ref = strip_stress(pts)
-    # +-2 % of each stress (docs/validation.md B3), points >= 0.25b from the load edges
+    # +-2 % of each stress (docs/validation.md, B5), points >= 0.25b from the load edges
     assert np.allclose(sig[:, 1], ref[:, 1], rtol=0.02, atol=0)
     assert np.allclose(sig[:, 0], ref[:, 0], rtol=0.02, atol=0)
     # the pin carries no load when the applied tractions are in equilibrium
@@ -74,7 +75,7 @@ def test_strip_load_differential_settlement():
     assert (v[1] - v[0]) == pytest.approx(ref, rel=0.03)
 
 
-# --------------------------------------------------------------------------- B4 rocking
+# --------------------------------------------------------------------------- B6 rocking
 @pytest.mark.parametrize("element,h_near", [("T6", 0.02), ("T15", 0.05)])
 def test_rigid_strip_rocking_stiffness(element, h_near):
     """K_theta = pi G b^2 / (2 (1 - nu)) per metre for a smooth rigid strip (Gazetas 1991,
@@ -96,7 +97,7 @@ def test_bonded_rocking_is_stiffer_than_smooth():
     assert k_smooth < k_bonded < 1.06 * ref
 
 
-# --------------------------------------------------------------------------- B5 punch
+# --------------------------------------------------------------------------- B7 punch
 def test_rigid_circular_punch_with_domain_trend():
     """K_V = 4 G R / (1 - nu), smooth rigid circular punch (Boussinesq; Sneddon 1946, from
     memory). Settlement decays like 1/r, so a finite domain stiffens the answer by ~ c R/L:
@@ -116,12 +117,12 @@ def test_rigid_circular_punch_with_domain_trend():
     assert ratio == pytest.approx(spence, rel=0.01)
 
 
-# --------------------------------------------------------------------------- mirror
+# --------------------------------------------------------------------------- F3, F4 mirror
 @pytest.mark.parametrize("element", ["T6", "T15"])
 def test_mirror_invariance(element):
     """Mirroring mesh and load about x = 0 mirrors the solution: u_x -> -u_x, u_y -> u_y,
-    sigma_xy -> -sigma_xy (exact symmetry of the equations; docs/validation.md F, 1e-10
-    relative)."""
+    sigma_xy -> -sigma_xy (exact symmetry of the equations; docs/validation.md, F3,
+    1e-10 relative)."""
     mesh = layered_domain(20.0, 10.0, [2.0], footing=(-1.0, 2.5), h=2.0, h_near=0.3,
                           element=element)
     results = []
@@ -144,8 +145,8 @@ def test_mirror_invariance(element):
 
 
 def test_thin_ring_far_from_axis_matches_plane_strain():
-    """docs/validation.md F: an axisymmetric ring of section 1 x 1 m at radius R behaves as the same
-    section in plane strain as R grows, the hoop terms falling like 1/R (exact limit of the
+    """docs/validation.md, F4: an axisymmetric ring of section 1 x 1 m at radius R behaves as
+    the same section in plane strain as R grows, the hoop terms falling like 1/R (exact limit of the
     axisymmetric kinematics). At R = 1000 m the top settlement under a uniform pressure agrees
     to 1e-3, and the difference shrinks ten-fold from R = 100 m."""
     from meshing import rectangle

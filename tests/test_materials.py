@@ -1,10 +1,9 @@
-"""Mohr-Coulomb and Tresca at the material point (docs/validation.md A1, A2).
+"""Mohr-Coulomb and Tresca at the material point (docs/validation.md, A1-A4, A6).
 
 References: failure states and triaxial slopes, de Souza Neto, Peric & Owen (2008),
 *Computational Methods for Plasticity*, ch. 6 and 8 (from memory); return-map vectors computed
-independently from the main-plane closed form (docs/validation.md A2, computed); tangent checked
-against
-central finite differences of the return map itself.
+independently from the main-plane closed form (docs/validation.md, A2); tangent checked against
+central finite differences of the return map itself (docs/validation.md, A3).
 """
 
 import numpy as np
@@ -34,9 +33,8 @@ def _principal(trial, phi, psi, c=10.0, t=None):
     ((-100, -110, -400), 0, (-115.072, -115.072, -379.856), 1),
 ])
 def test_return_map_vectors(trial, psi, expected, region):
-    # docs/validation.md A2 table (E = 20 000 kPa, nu = 0.3, c = 10 kPa, phi = 30 deg), values
-    # computed
-    # given to 3 decimals: tolerance 5e-4 kPa absolute
+    # docs/validation.md, A2 table (E = 20 000 kPa, nu = 0.3, c = 10 kPa, phi = 30 deg): values
+    # computed from the closed form, given to 3 decimals: tolerance 5e-4 kPa absolute
     s, reg = _principal(trial, 30, psi)
     assert np.allclose(s, expected, atol=5e-4, rtol=0)
     assert reg == region
@@ -57,7 +55,7 @@ def test_return_map_closed_form_main_plane():
 
 
 def test_tresca_vector_and_apex_handling():
-    # docs/validation.md A2: Tresca s_u = 50: (-100, -150, -400) -> (-183.333, -183.333, -283.333)
+    # docs/validation.md, A2: Tresca s_u = 50: (-100, -150, -400) -> (-183.333, -183.333, -283.333)
     s, reg = _principal((-100, -150, -400), 0, 0, c=50.0)
     assert np.allclose(s, (-183.333, -183.333, -283.333), atol=5e-4) and reg == 1
     # psi = 0 beyond the apex: with the cut-off t = 0 the return is to (0, 0, 0), exactly
@@ -102,9 +100,8 @@ _REGION_CASES = {
 
 @pytest.mark.parametrize("case", list(_REGION_CASES))
 def test_consistent_tangent_matches_finite_differences(case):
-    # FD of the return map (docs/validation.md A2: 1e-5 relative) in every region; psi = 5 < phi =
-    # 30,
-    # so the tangent is also checked where it is unsymmetric
+    # FD of the return map (docs/validation.md, A3: 1e-5 relative) in every region;
+    # psi = 5 < phi = 30, so the tangent is also checked where it is unsymmetric
     m = MohrCoulomb(E, NU, c=10.0, phi=30.0, psi=5.0, tension_cutoff=0.0)
     s0 = np.array([-100.0, -100.0, -100.0, 0.0])
     st = m.initial_state(np.zeros((1, 1, 2)) - [0, 1]).with_stress(s0.reshape(1, 1, 4))
@@ -192,8 +189,8 @@ def test_triaxial_compression_and_extension_strength(phi, c):
 @pytest.mark.parametrize("psi", [0.0, 10.0, 30.0])
 def test_plane_strain_biaxial_failure_independent_of_dilation(psi):
     # sigma_1 = N_phi sigma_3 + 2 c sqrt(N_phi), N_phi = (1 + sin)/(1 - sin) = 3 at 30 deg,
-    # independent of E, nu, psi (docs/validation.md A1); plane strain: eps_zz = 0
-    # (strain-controlled)
+    # independent of E, nu, psi (docs/validation.md, A1); plane strain: eps_zz = 0 (strain-
+    # controlled)
     c = 10.0
     m = MohrCoulomb(E, NU, c=c, phi=30.0, psi=psi, tension_cutoff=None)
     n_phi = (1 + 0.5) / (1 - 0.5)

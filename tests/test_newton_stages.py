@@ -1,4 +1,5 @@
-"""Newton failure handling, pushover cutback and reporting, K0 initial stresses.
+"""Newton failure handling, pushover cutback and reporting, at-rest (K0) initial stresses
+(docs/validation.md, F5, F6).
 
 References: an applied vertical load above the undrained bearing capacity (2 + pi) s_u B
 (Prandtl 1920) has no equilibrium solution, so Newton must fail and say so; K0 stresses of a

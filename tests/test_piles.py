@@ -1,8 +1,9 @@
-"""Piles, pile groups, ring lumping, key points and the demo pushover (docs/validation.md E16-E19,
-F).
+"""Piles, pile groups, ring lumping, key points and the demo pushover (docs/validation.md,
+E1-E4, E7, F1, F2, F7, F8).
 
-Sources are named beside each check; "[M]" marks formulas from memory, "[C]" values computed
-independently here from the stated formula.
+Sources are named beside each check; "[S]" marks what was seen in the source, "[M]" formulas
+from memory, "[C]" values computed independently here from the stated formula, "[D]" results
+derived from classical theory (the tags of docs/validation.md).
 """
 
 import numpy as np
@@ -21,7 +22,7 @@ from materials import LinearElastic
 from meshing import layered_domain
 
 
-# --------------------------------------------------------------------------- E16 Hetenyi
+# --------------------------------------------------------------------------- E1 Hetenyi
 @pytest.mark.parametrize("H,M", [(100.0, 0.0), (50.0, 200.0)])
 def test_hetenyi_long_free_head(H, M):
     """Long pile, free head: y0 = (2 lambda H + 2 lambda^2 M)/k, theta0 = (2 lambda^2 H +
@@ -56,7 +57,7 @@ def test_hetenyi_finite_free_head():
     assert sol.u[TH] == pytest.approx(2 * lam**2 * H / k * (S**2 + s**2) / d, rel=0.005)
 
 
-# --------------------------------------------------------------------------- E17 rigid cap
+# --------------------------------------------------------------------------- E2 rigid cap
 def rigid_cap(xs, k, Q, V=0.0, theta_max=0.01):
     """Rigid cap (reference at the pile heads, y = 0) on stiff pinned piles whose only axial
     support is an elastic - perfectly plastic spring (k, +-Q) at the tip."""
@@ -115,7 +116,7 @@ def test_rigid_cap_plastic_moment_and_piecewise_curve(V, Mp):
         assert np.allclose(res.force[:, 0], expect, rtol=0.005, atol=1e-6)
 
 
-# --------------------------------------------------------------------------- E19 Broms
+# --------------------------------------------------------------------------- E4 Broms
 def test_broms_short_fixed_head_clay():
     """H_u = 9 s_u D (L - 1.5 D), no resistance over the top 1.5 D (Broms 1964, JSMFD 90(SM2))
     [S abstract, M formula]; beam on rigid-plastic springs, +-1 %."""
@@ -143,7 +144,7 @@ def test_broms_long_free_head_max_moment():
     assert np.abs(moments).max() == pytest.approx(H * (1.5 * D + 0.5 * f_len), rel=0.01)
 
 
-# --------------------------------------------------------------------------- E18 R&W
+# --------------------------------------------------------------------------- E3 R&W
 def randolph_wroth(L_r0, lam, nu=0.3):
     """P/(w G r0) of Randolph & Wroth (1978), J. Geotech. Eng. Div. 104(GT12) [M formula]."""
     zeta = np.log(2.5 * L_r0 * (1 - nu))
@@ -178,12 +179,12 @@ def test_randolph_wroth_axial_head_stiffness(L_r0, ref):
     assert P / (1e-3 * G * r0) == pytest.approx(ref, rel=0.15)
 
 
-# --------------------------------------------------------------------------- layout
+# --------------------------------------------------------------------------- E7 layout
 def test_ring_lumping_preserves_count_and_second_moment():
     """sum n and sum n x^2 of the pile heads are preserved exactly by the RMS row positions
-    (ring-to-row lumping, foundation/layout.py) (derived); the layout stays symmetric and no two
-    row lines come closer than the
-    merge distance; L = 16 R / (3 pi) (rigid circle vs strip rocking, Gazetas 1991) [D]."""
+    (ring-to-row lumping, foundation/layout.py) [D]; the layout stays symmetric and no two row
+    lines come closer than the merge distance; L = 16 R / (3 pi) (rigid circle vs strip
+    rocking, Gazetas 1991) [D]."""
     rings = [Ring(9.9, 28, 1 / 6), Ring(6.6, 16, 0.0)]
     rows = lump_rings(rings, merge=1.0, depth=21.0)
     a28 = 2 * np.pi * np.arange(28) / 28
@@ -196,7 +197,7 @@ def test_ring_lumping_preserves_count_and_second_moment():
     assert default_slice_length(11.0) == pytest.approx(16 * 11 / (3 * np.pi), rel=1e-15)
 
 
-# --------------------------------------------------------------------------- key points
+# --------------------------------------------------------------------------- F8 key points
 def test_keypoints_exact_bilinear():
     """Elastic - perfectly plastic curve (K = 1e8 kNm/rad, M_y = 2e5 kNm): equal-energy and
     tangent-intersection yield both return M_y; the plateau is found (not censored); the
@@ -231,7 +232,7 @@ def test_keypoints_exact_hyperbola():
     assert kp["ultimate"].value == pytest.approx(M[-1], rel=1e-12)
 
 
-# --------------------------------------------------------------------------- demo (F)
+# --------------------------------------------------------------------------- demo (F1, F2, F7)
 @pytest.fixture(scope="module")
 def demo_springs():
     return run_design(demo_design(support="springs"))
@@ -260,8 +261,8 @@ def test_demo_springs_initial_stiffness_equals_sum_k_x2(demo_springs):
 
 
 def test_demo_continuum_sanity(demo_continuum, demo_springs):
-    """docs/validation.md F: K_initial within 0.3-3x of the springs-only estimate; M(theta) monotone
-    before the peak; every converged step below the residual tolerance."""
+    """docs/validation.md, F1: K_initial within 0.3-3x of the springs-only estimate; M(theta)
+    monotone before the peak; every converged step below the residual tolerance."""
     r = demo_continuum
     assert r.status in ("ok", "censored"), r.message
     k_c = r.keypoints["initial_stiffness"].value
@@ -324,7 +325,7 @@ def test_fixed_heads_are_stiffer_than_pinned():
 def test_demo_standard_mesh_runs_to_target_rotation():
     """The demo on its standard T15 mesh (about 25k DOFs) reaches the target rotation with
     every increment converged, and its initial stiffness stays within 0.3-3x of the
-    springs-only model (docs/validation.md F)."""
+    springs-only model (docs/validation.md, F1)."""
     r = run_design(demo_design())
     assert r.status in ("ok", "censored"), r.message
     assert r.curve["rotation"][-1] >= 0.005 * (1 - 1e-9)

@@ -1,4 +1,4 @@
-"""Cross-check with scikit-fem, an independent general-purpose FE library (docs/validation.md, B7).
+"""Cross-check with scikit-fem, an independent general-purpose FE library (docs/validation.md, B8).
 
 The same T6 mesh (straight-sided, so both codes integrate the stiffness exactly), the same
 quadratic body force (so both integrate the load exactly and the field is truly 2D) and the
