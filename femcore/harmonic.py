@@ -103,8 +103,9 @@ from scipy.special import roots_jacobi
 from .assembly import SparsePattern, assemble_vector
 from .dofs import ConstraintError, ConstraintMap, Constraints
 from .elements import ReferenceElement
+from .kinematics import isoparametric_map
 from .linsolve import SolverError, factorize
-from .mesh import Mesh, MeshError
+from .mesh import Mesh
 from .quadrature import QuadratureRule, line_rule, triangle_rule
 
 __all__ = [
@@ -371,26 +372,8 @@ def ring_geometry(mesh: Mesh, rule: QuadratureRule | None = None,
     :class:`~femcore.mesh.MeshError` for non-positive Jacobians.
     """
     _check_radius(mesh)
-    element = mesh.element
-    rule = rule or default_harmonic_rule(element)
-    conn = mesh.cells if cells is None else mesh.cells[np.asarray(cells, dtype=np.int64)]
-    X = mesh.points[conn]  # (c, a, 2)
-    N = element.shape(rule.points)  # (q, a)
-    dN_ref = element.shape_gradients(rule.points)  # (q, a, 2)
-    J = np.einsum("cad,qae->cqde", X, dN_ref)  # (c, q, 2, 2)  dx_d / dxi_e
-    detJ = J[..., 0, 0] * J[..., 1, 1] - J[..., 0, 1] * J[..., 1, 0]  # (c, q)
-    if np.any(detJ <= 0.0):
-        k = int(np.flatnonzero((detJ <= 0.0).any(axis=1))[0])
-        raise MeshError(f"cell {k} of the block has a non-positive Jacobian at a quadrature "
-                        f"point (min det J = {detJ[k].min():.3e}); it is inverted or distorted")
-    inv_detJ = 1.0 / detJ  # (c, q)
-    invJ = np.empty_like(J)  # (c, q, 2, 2)  dxi_e / dx_d
-    invJ[..., 0, 0] = J[..., 1, 1] * inv_detJ
-    invJ[..., 1, 1] = J[..., 0, 0] * inv_detJ
-    invJ[..., 0, 1] = -J[..., 0, 1] * inv_detJ
-    invJ[..., 1, 0] = -J[..., 1, 0] * inv_detJ
-    dN = np.einsum("qae,cqed->cqad", dN_ref, invJ)  # (c, q, a, 2)
-    x = np.einsum("qa,cad->cqd", N, X)  # (c, q, 2)
+    rule = rule or default_harmonic_rule(mesh.element)
+    N, dN, x, detJ = isoparametric_map(mesh, rule, cells)
     r = x[..., 0]  # (c, q)
     if np.any(r <= 0.0):
         k = int(np.flatnonzero((r <= 0.0).any(axis=1))[0])

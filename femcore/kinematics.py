@@ -21,7 +21,7 @@ from .elements import ReferenceElement
 from .mesh import Mesh, MeshError
 from .quadrature import QuadratureRule, triangle_rule
 
-__all__ = ["Kinematics", "CellGeometry", "cell_geometry", "default_rule"]
+__all__ = ["Kinematics", "CellGeometry", "cell_geometry", "default_rule", "isoparametric_map"]
 
 
 class Kinematics(str, enum.Enum):
@@ -88,17 +88,15 @@ class CellGeometry:
         return self.dV.shape[1]
 
 
-def cell_geometry(
-    mesh: Mesh,
-    analysis: Kinematics = Kinematics.PLANE_STRAIN,
-    rule: QuadratureRule | None = None,
-    cells: NDArray[np.int64] | None = None,
-) -> CellGeometry:
-    """B matrices, volume weights and point coordinates for ``cells`` (default: all)."""
-    analysis = Kinematics(analysis)
+def isoparametric_map(mesh: Mesh, rule: QuadratureRule, cells: NDArray[np.int64] | None = None):
+    """The isoparametric map of ``cells`` (default: all) at the points of ``rule``.
+
+    Returns ``N (q, a)``, the physical gradients ``dN (c, q, a, 2)``, the points
+    ``x (c, q, 2)`` and ``det J (c, q)``; raises :class:`MeshError` naming the first cell with
+    a non-positive Jacobian (inverted or too distorted).
+    """
     element = mesh.element
-    rule = rule or default_rule(element)
-    conn = mesh.cells if cells is None else mesh.cells[cells]  # (c, a)
+    conn = mesh.cells if cells is None else mesh.cells[np.asarray(cells, dtype=np.int64)]
     X = mesh.points[conn]  # (c, a, 2)
     N = element.shape(rule.points)  # (q, a)
     dN_ref = element.shape_gradients(rule.points)  # (q, a, 2)
@@ -111,15 +109,28 @@ def cell_geometry(
             f"cell {cell_id} has a non-positive Jacobian at a quadrature point "
             f"(min det J = {detJ[k].min():.3e}); it is inverted or too distorted"
         )
-    inv_detJ = 1.0 / detJ
+    inv_detJ = 1.0 / detJ  # (c, q)
     invJ = np.empty_like(J)  # (c, q, 2, 2)  dxi_e / dx_d
     invJ[..., 0, 0] = J[..., 1, 1] * inv_detJ
     invJ[..., 1, 1] = J[..., 0, 0] * inv_detJ
     invJ[..., 0, 1] = -J[..., 0, 1] * inv_detJ
     invJ[..., 1, 0] = -J[..., 1, 0] * inv_detJ
     dN = np.einsum("qae,cqed->cqad", dN_ref, invJ)  # (c, q, a, 2)
-    x_qp = np.einsum("qa,cad->cqd", N, X)  # (c, q, 2)
+    x = np.einsum("qa,cad->cqd", N, X)  # (c, q, 2)
+    return N, dN, x, detJ
 
+
+def cell_geometry(
+    mesh: Mesh,
+    analysis: Kinematics = Kinematics.PLANE_STRAIN,
+    rule: QuadratureRule | None = None,
+    cells: NDArray[np.int64] | None = None,
+) -> CellGeometry:
+    """B matrices, volume weights and point coordinates for ``cells`` (default: all)."""
+    analysis = Kinematics(analysis)
+    element = mesh.element
+    rule = rule or default_rule(element)
+    N, dN, x_qp, detJ = isoparametric_map(mesh, rule, cells)
     n_c, n_q, n_a = dN.shape[:3]
     B = np.zeros((n_c, n_q, 4, 2 * n_a))  # (c, q, 4, i)
     B[:, :, 0, 0::2] = dN[..., 0]

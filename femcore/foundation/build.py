@@ -26,6 +26,7 @@ by L, row stiffnesses and resistances multiplied by n_row / L.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 from numpy.typing import NDArray
@@ -42,7 +43,7 @@ from materials import LinearElastic, MohrCoulomb, Tresca
 from meshing import regions
 
 from ..beams import BeamBlock
-from ..dofs import Constraints
+from ..dofs import ConstraintMap, Constraints
 from ..initial_stress import GAMMA_W, Layer, Profile
 from ..interfaces import ContactBlock, SpringBlock, contact_pairs
 from ..mesh import Mesh
@@ -80,6 +81,12 @@ class BuiltModel:
     rows: list[PileRow]
     profile: Profile | None
     meta: dict = field(default_factory=dict)
+
+    @cached_property
+    def free_map(self) -> ConstraintMap:
+        """The constraint map of the supports and ties alone (no control prescribed), built
+        once and shared by the load-ramp stages."""
+        return self.constraints.build()
 
     @property
     def lever_height(self) -> float:

@@ -128,7 +128,7 @@ def weight_loads(built: BuiltModel) -> NDArray[np.float64]:
 
 
 def _ramp(built: BuiltModel, state: StageState, f_end, settings: StepSettings) -> StepResult:
-    return Stepper(built.model, built.constraints.build(), state.f_ext, [], [],
+    return Stepper(built.model, built.free_map, state.f_ext, [], [],
                    f_ext_end=f_end, settings=settings).run(u0=state.u, states0=state.states)
 
 

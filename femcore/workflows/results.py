@@ -14,7 +14,8 @@ from pathlib import Path
 
 import numpy as np
 
-from femcore.foundation.records import CAUTION
+from femcore.foundation.keypoints import KeyPoint
+from femcore.foundation.records import CAUTION, DynamicStiffness, RequirementCheck
 from femcore.foundation.run import RESULT_SCHEMA_VERSION, Result
 from femcore.model import SolidBlock
 
@@ -98,34 +99,13 @@ def result_file_model():
     from typing import Literal
 
     from pydantic import BaseModel, ConfigDict
+    from pydantic.dataclasses import dataclass as pydantic_dataclass
 
-    class KeyPointOut(BaseModel):
-        model_config = ConfigDict(extra="forbid")
-        name: str
-        value: float | None
-        unit: str
-        method: str
-        parameters: dict
-        extra: dict
-
-    class Requirement(BaseModel):
-        model_config = ConfigDict(extra="forbid")
-        name: str
-        value: float | None
-        required: float
-        unit: str
-        passed: bool | None
-        margin: float | None
-        detail: str
-        extra: dict
-
-    class Dynamic(BaseModel):
-        model_config = ConfigDict(extra="forbid")
-        value: float | None
-        moduli: str
-        rotation: float | None
-        dofs: int | None
-        reason: str | None
+    # the typed records themselves, validated strictly (no unknown or missing fields)
+    strict = ConfigDict(extra="forbid")
+    KeyPointOut = pydantic_dataclass(config=strict)(KeyPoint)
+    Requirement = pydantic_dataclass(config=strict, frozen=True)(RequirementCheck)
+    Dynamic = pydantic_dataclass(config=strict, frozen=True)(DynamicStiffness)
 
     class ResultFile(BaseModel):
         model_config = ConfigDict(extra="forbid")
