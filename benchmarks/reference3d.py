@@ -137,6 +137,34 @@ def randolph_wroth_pile(G: float, nu: float, r0: float, length: float,
                  / (1 + 4 / (np.pi * lam * (1 - nu)) * t))
 
 
+def randolph_lateral_pile(G: float, nu: float, diameter: float,
+                          E_pile: float) -> dict[str, float]:
+    """Head stiffness of a flexible pile under lateral load in homogeneous soil.
+
+    Randolph (1981), "The response of flexible piles to lateral loading", Geotechnique
+    31(2) (from memory): with G* = G (1 + 3 nu / 4), l_c = d (E_p / G*)^(2/7) and
+    a = l_c / 2, the head flexibilities (rho_c = 1) are
+    u = (E_p/G*)^(1/7) / G* [0.27 H / a + 0.3 M / a^2],
+    theta = (E_p/G*)^(1/7) / G* [0.3 H / a^2 + 0.8 M / a^3]; inverted to the stiffness with
+    the head translation and rotation as independent DOFs (a fixed head's K_H = K[0, 0]).
+    Valid for piles longer than l_c.
+
+    Returns
+    -------
+    dict
+        ``K_H`` (kN/m, rotation held), ``K_R`` (kNm/rad, translation held), ``K_H_free``
+        (kN/m, free head), ``l_c`` (m).
+    """
+    Gs = G * (1 + 0.75 * nu)
+    ratio = E_pile / Gs
+    lc = diameter * ratio ** (2 / 7)
+    a = lc / 2
+    F = ratio ** (1 / 7) / Gs * np.array([[0.27 / a, 0.3 / a**2], [0.3 / a**2, 0.8 / a**3]])
+    K = np.linalg.inv(F)
+    return {"K_H": float(K[0, 0]), "K_R": float(K[1, 1]), "K_H_free": float(1 / F[0, 0]),
+            "l_c": float(lc)}
+
+
 def gazetas_pile(E_soil: float, E_pile: float, diameter: float) -> dict[str, float]:
     """Head stiffness matrix of a flexible pile in homogeneous soil (rotation held / free).
 

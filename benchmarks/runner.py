@@ -24,9 +24,9 @@ DEFAULT_BASELINE = Path(__file__).with_name("baseline.json")
 
 
 def _validation_cases() -> dict:
-    from . import collapse, validation
+    from . import collapse, harmonic_cases, validation
 
-    return {**collapse.CASES, **validation.CASES}
+    return {**collapse.CASES, **validation.CASES, **harmonic_cases.CASES}
 
 
 def _perf_assembly(quick: bool) -> tuple[float, dict]:
@@ -73,7 +73,25 @@ def _perf_campaign(quick: bool) -> tuple[float, dict]:
                                    "overhead_share": r["overhead_share"]}
 
 
+def _perf_harmonic(quick: bool) -> tuple[float, dict]:
+    """Slice pushover time over one harmonic n = 1 elastic solve of the demo (standard T15
+    mesh; both measured here, in this process)."""
+    from femcore.foundation.build import build_model
+    from femcore.foundation.design import demo_design
+    from femcore.foundation.elastic3d import harmonic_stiffness
+    from femcore.foundation.run import run_built
+
+    d = demo_design(**({"mesh": "coarse", "element": "T6"} if quick else {}))
+    e = harmonic_stiffness(d, vertical=False)
+    r = run_built(build_model(d, slice_length=18.67), dynamic=False, elastic=e)
+    return r.timings["pushover_s"] / e.seconds["n1_s"], {
+        "kind": "ratio", "unit": "x (slice pushover / harmonic n = 1 solve)",
+        "harmonic_n1_s": e.seconds["n1_s"], "pushover_s": r.timings["pushover_s"],
+        "harmonic_dofs": e.dofs}
+
+
 PERF = {
+    "perf_pushover_vs_harmonic_solve": _perf_harmonic,
     "perf_assembly_vs_scikit_fem": _perf_assembly,
     "perf_superlu_vs_spsolve": _perf_solver,
     "perf_demo_springs": _perf_demo("springs"),

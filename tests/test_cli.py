@@ -83,7 +83,7 @@ def test_run_end_to_end_matches_python_api(tmp_path, capsys):
 def test_check_and_schema(capsys):
     assert cli.main(["check", str(DEMO)]) == 0
     out = capsys.readouterr().out
-    assert "11 rows" in out and "L = 18.674 m" in out
+    assert "13 rows" in out and "L = 18.674 m" in out
     assert cli.main(["schema"]) == 0
     schema = json.loads(capsys.readouterr().out)
     props = schema["$defs"]["Cap"]["properties"]

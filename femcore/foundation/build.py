@@ -51,7 +51,8 @@ from ..model import Model
 from .design import Design, SoilLayer
 from .layout import Ring, Row, default_slice_length, lump_rings
 
-__all__ = ["BuiltModel", "PileRow", "build_model", "MESH_SIZES"]
+__all__ = ["BuiltModel", "PileRow", "build_model", "slice_length_of", "domain_mesh",
+           "mesh_width", "MESH_SIZES"]
 
 # element size near piles and cap (m) and far-field size (in cap diameters)
 MESH_SIZES = {"coarse": (3.0, 1 / 2.0), "standard": (1.6, 1 / 2.5), "fine": (1.0, 1 / 3.5)}
@@ -194,8 +195,57 @@ def _split_underside(mesh: Mesh, y: float, x_lim: float):
     return new_mesh, nodes, new_index, under
 
 
-def build_model(design: Design) -> BuiltModel:
-    """The 2D model of a (validated) design (see module docstring)."""
+def mesh_width(design: Design, half: bool) -> float:
+    """Width of the soil domain (m): the cap plus ``domain_factor`` cap diameters each side
+    (half of it for a mesh of the half-plane x >= 0)."""
+    return design.cap.diameter * (1 + 2 * design.analysis.domain_factor) / (2 if half else 1)
+
+
+_MESHES: dict[tuple, Mesh] = {}
+
+
+def domain_mesh(design: Design, lines, half: bool) -> Mesh:
+    """The soil-and-cap mesh of a design (gmsh): layers, water table, cap section, pile
+    lines; the half-plane x >= 0 for ``half`` (axisymmetric and harmonic models). The last
+    few meshes are kept, so that models of the same geometry (the slice at another length,
+    the harmonic model at other moduli) skip the mesher."""
+    from meshing import layered_domain  # gmsh only when a mesh is needed
+
+    an, cap = design.analysis, design.cap
+    h_near, far = MESH_SIZES[an.mesh]
+    depth = design.model_depth
+    layer_depths = np.cumsum([ly.thickness for ly in design.soil.layers])[:-1]
+    layer_depths = tuple(float(z) for z in layer_depths if 0 < z < depth - 1e-6)
+    poly, _ = _cap_polygon(design, half=half)
+    wt = design.soil.water_table
+    lines = tuple((tuple(map(float, a)), tuple(map(float, b))) for a, b in lines)
+    key = (mesh_width(design, half), depth, layer_depths, tuple(poly), lines, half,
+           wt if 0 < wt < depth else None, far * cap.diameter, h_near, an.element)
+    if key not in _MESHES:
+        if len(_MESHES) >= 4:
+            _MESHES.pop(next(iter(_MESHES)))
+        _MESHES[key] = layered_domain(
+            key[0], depth, list(layer_depths), cap=poly, lines=list(lines),
+            x_min=0.0 if half else None, extra_depths=[wt] if 0 < wt < depth else [],
+            h=far * cap.diameter, h_near=h_near, refine_radius=4 * h_near + 2.0,
+            element=an.element)
+    return _MESHES[key]
+
+
+def slice_length_of(design: Design) -> float:
+    """The out-of-plane length given in the design, or 16 R / (3 pi) for 'cap_rule' and as
+    the starting value of 'calibrated'."""
+    L = design.analysis.slice_length
+    return float(L) if isinstance(L, (int, float)) else default_slice_length(
+        design.cap.diameter / 2)
+
+
+def build_model(design: Design, slice_length: float | None = None) -> BuiltModel:
+    """The 2D model of a (validated) design (see module docstring); ``slice_length``
+    overrides the design's out-of-plane length (the calibrated value)."""
+    if design.analysis.geometry == "harmonic":
+        raise ValueError("build_model builds 2D models; harmonic designs are built by "
+                         "femcore.foundation.elastic3d.build_harmonic")
     an, cap, piles, loading = design.analysis, design.cap, design.piles, design.loading
     axisym = an.geometry == "axisymmetric"
     R = cap.diameter / 2
@@ -206,7 +256,7 @@ def build_model(design: Design) -> BuiltModel:
         L = 1.0
         rows = [Row(r.radius, float(r.count), r.rake, i) for i, r in enumerate(rings)]
     else:
-        L = an.slice_length if an.slice_length is not None else default_slice_length(R)
+        L = slice_length if slice_length is not None else slice_length_of(design)
         rows = lump_rings(rings, an.row_merge, depth=vertical_extent)
     profile = soil_profile(design)
     soil_at = _SoilAtDepth(design, profile)
@@ -223,19 +273,10 @@ def build_model(design: Design) -> BuiltModel:
     if an.support == "springs":
         return _build_springs(design, rows, L, profile, soil_at, ref_xy, ped_top, meta,
                               (A, I, perimeter, r0))
-    from meshing import layered_domain  # gmsh only when a mesh is needed
-
-    h_near, far = MESH_SIZES[an.mesh]
-    width = cap.diameter * (1 + 2 * an.domain_factor) / (2 if axisym else 1)
-    depth = design.model_depth
-    layer_depths = np.cumsum([ly.thickness for ly in design.soil.layers])[:-1]
-    layer_depths = [float(z) for z in layer_depths if 0 < z < depth - 1e-6]
     lines = [_row_line(r, head_y, piles.length) for r in rows]
-    wt = design.soil.water_table
-    mesh = layered_domain(width, depth, layer_depths, cap=poly, lines=lines,
-                          x_min=0.0 if axisym else None,
-                          extra_depths=[wt] if 0 < wt < depth else [], h=far * cap.diameter,
-                          h_near=h_near, refine_radius=4 * h_near + 2.0, element=an.element)
+    mesh = domain_mesh(design, lines, half=axisym)
+    width = mesh_width(design, half=axisym)
+    depth = design.model_depth
     split_nodes = np.zeros(0, dtype=np.int64)
     new_index = None
     underside = None

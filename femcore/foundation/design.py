@@ -42,8 +42,15 @@ class _Model(BaseModel):
 class AnalysisSettings(_Model):
     """How the design is analysed."""
 
-    geometry: Literal["plane_strain", "axisymmetric"] = Field(
-        "plane_strain", description="plane_strain (moment) or axisymmetric (vertical only)")
+    geometry: Literal["plane_strain", "axisymmetric", "harmonic"] = Field(
+        "plane_strain", description="plane_strain (moment-rotation pushover of a slice), "
+        "axisymmetric (vertical only) or harmonic (elastic 3D stiffness of the real "
+        "geometry: the axisymmetric mesh with circumferential harmonics and smeared pile "
+        "rings; no pushover)")
+    harmonics: int = Field(
+        1, ge=1, le=8, description="highest circumferential harmonic n of the harmonic "
+        "model (1-8); elastic loads (vertical, horizontal, moment) live in n = 0 and 1, so "
+        "1 is exact for them")
     element: Literal["T6", "T15"] = Field(
         "T15", description="soil triangles: T15 = 15-node quartic (default: accurate undrained "
         "collapse loads in plane strain and axisymmetry, where low-order triangles lock; Sloan "
@@ -54,10 +61,13 @@ class AnalysisSettings(_Model):
     support: Literal["continuum", "springs"] = Field(
         "continuum", description="soil continuum with embedded piles, or springs only "
         "(subgrade reaction, rigid cap)")
-    slice_length: Pos | None = Field(
-        None, description="out-of-plane length L of the plane-strain slice, m; default "
-        "16 R / (3 pi)")
-    row_merge: Pos = Field(1.0, description="projected pile rows closer than this merge, m")
+    slice_length: Pos | Literal["calibrated", "cap_rule"] = Field(
+        "calibrated", description="out-of-plane length L of the plane-strain slice, m; "
+        "'calibrated' (default): L such that the slice's elastic rotational stiffness equals "
+        "the harmonic 3D solve of the same design; 'cap_rule': L = 16 R / (3 pi) of the cap "
+        "radius R")
+    row_merge: Pos = Field(0.25, description="pile projections within this distance of the "
+                           "first pile of a row merge into it, m")
     domain_factor: float = Field(2.0, ge=1.0, le=6.0,
                                  description="soil beyond the cap edge, in cap diameters")
 
@@ -270,6 +280,14 @@ class Design(_Model):
         if self.analysis.geometry == "axisymmetric" and self.analysis.support != "continuum":
             problems.append("analysis.support must be 'continuum' for axisymmetric analyses "
                             f"(got {self.analysis.support!r})")
+        if self.analysis.geometry == "harmonic":
+            if self.analysis.support != "continuum":
+                problems.append("analysis.support must be 'continuum' for harmonic analyses "
+                                f"(got {self.analysis.support!r})")
+            for i, ring in enumerate(self.piles.rings):
+                if ring.count < 3:
+                    problems.append(f"piles.rings.{i}.count = {ring.count}: a ring of the "
+                                    "harmonic model needs at least 3 piles (allowed: 3-200)")
         if self.analysis.geometry == "axisymmetric" and self.loading.control != "settlement":
             problems.append("loading.control must be 'settlement' for axisymmetric analyses")
         if self.loading.control == "settlement" and self.analysis.geometry != "axisymmetric":

@@ -10,7 +10,8 @@ from __future__ import annotations
 from dataclasses import asdict, dataclass, field
 from typing import Literal
 
-__all__ = ["Status", "RequirementCheck", "PileEnvelope", "DynamicStiffness", "CAUTION"]
+__all__ = ["Status", "RequirementCheck", "PileEnvelope", "DynamicStiffness", "ElasticStiffness",
+           "CAUTION"]
 
 Status = Literal["ok", "censored", "diverged"]
 
@@ -75,14 +76,47 @@ class PileEnvelope:
 
 @dataclass(frozen=True)
 class DynamicStiffness:
-    """Rotational stiffness of a linear elastic small-rotation analysis with the small-strain
-    shear moduli G0 (kNm/rad; None with the ``reason`` when it cannot be computed)."""
+    """Rotational stiffness (kNm/rad) of a linear elastic analysis with the small-strain shear
+    moduli G0, M / theta under a moment (no horizontal force); None with the ``reason`` when
+    it cannot be computed.
+
+    ``value`` comes from ``method``: the harmonic 3D solve where the design allows it, else
+    the plane-strain slice; ``slice_value`` is the slice's figure at the slice length in use
+    (None for harmonic-only runs)."""
 
     value: float | None
     moduli: str = "small-strain G0 (E = 2 G0 (1 + nu)), elastic"
     rotation: float | None = None
     dofs: int | None = None
     reason: str | None = None
+    method: str = "plane-strain slice"
+    slice_value: float | None = None
+
+    def as_dict(self) -> dict:
+        return asdict(self)
+
+
+@dataclass(frozen=True)
+class ElasticStiffness:
+    """Elastic stiffness of the 3D foundation at the tower base from the harmonic model.
+
+    ``value``: M / theta under the load case (lever: H = M / h; otherwise a moment), kNm/rad;
+    ``moment``: M / theta under a pure moment (H = 0); ``K_R`` rocking with the base held
+    horizontally, ``K_H`` (kN/m), ``K_HR`` (kN/rad, H per unit rotation with the base held),
+    ``K_V`` (kN/m). ``moduli``: "operational" (the layers' E) or "small_strain" (G0).
+    """
+
+    value: float
+    moment: float
+    K_R: float
+    K_H: float
+    K_HR: float
+    K_V: float
+    moduli: str
+    lever_arm: float | None
+    dofs: int
+    seconds: dict
+    near_field: list
 
     def as_dict(self) -> dict:
         return asdict(self)

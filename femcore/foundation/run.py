@@ -21,14 +21,23 @@ from ..stepping import StepRecord, StepResult, StepSettings
 from .build import BuiltModel, build_model
 from .design import SCHEMA_VERSION, Design, design_from_dict
 from .dynamic import dynamic_stiffness
+from .elastic3d import calibrated_slice_length, check_harmonic_layout, harmonic_stiffness
 from .keypoints import KeyPoint, analyse_curve, moment_at_rotation, ultimate_plateau
-from .records import CAUTION, DynamicStiffness, PileEnvelope, RequirementCheck, Status
+from .records import (
+    CAUTION,
+    DynamicStiffness,
+    ElasticStiffness,
+    PileEnvelope,
+    RequirementCheck,
+    Status,
+)
 from .requirements import check_requirements
 from .stages import StageLog, run_stages, stages_for
 
-__all__ = ["Result", "run_design", "run_built", "RESULT_SCHEMA_VERSION"]
+__all__ = ["Result", "run_design", "run_built", "run_harmonic", "prepare",
+           "RESULT_SCHEMA_VERSION"]
 
-RESULT_SCHEMA_VERSION = "2"
+RESULT_SCHEMA_VERSION = "3"
 
 
 def _clean(obj):
@@ -74,6 +83,7 @@ class Result:
     design_name: str = ""
     dynamic: DynamicStiffness | None = None
     stages: list[dict] = field(default_factory=list)
+    elastic: ElasticStiffness | None = None
     built: BuiltModel | None = field(default=None, repr=False)
     pushover: StepResult | None = field(default=None, repr=False)
 
@@ -84,9 +94,22 @@ class Result:
             "curve": {k: np.asarray(v).tolist() for k, v in self.curve.items()},
             "keypoints": {k: v.as_dict() for k, v in self.keypoints.items()},
             "dynamic": None if self.dynamic is None else self.dynamic.as_dict(),
+            "elastic": None if self.elastic is None else self.elastic.as_dict(),
             "requirements": {k: v.as_dict() for k, v in self.requirements.items()},
             "piles": [p.as_dict() for p in self.piles], "model": self.model,
             "stages": self.stages, "timings": self.timings, "caution": CAUTION})
+
+
+def _slice_rule(built: BuiltModel) -> str:
+    L = built.design.analysis.slice_length
+    if built.design.analysis.support == "springs":
+        return "no effect (springs support)"
+    if L == "calibrated" and "slice_calibration" not in built.meta:
+        return "16 R / (3 pi) as built; calibrated when the design is run"
+    if L == "calibrated":
+        return ("calibrated to the harmonic 3D stiffness" if built.meta.get("slice_calibration")
+                else "16 R / (3 pi) (calibration needs rings of >= 3 piles)")
+    return "16 R / (3 pi)" if L == "cap_rule" else "given"
 
 
 def _model_info(built: BuiltModel) -> dict:
@@ -94,7 +117,8 @@ def _model_info(built: BuiltModel) -> dict:
     return {"nodes": m.mesh.n_nodes, "dofs": m.n_dofs, "cells": m.mesh.n_cells,
             "geometry": an.geometry, "element": an.element, "mesh": an.mesh,
             "support": an.support, "slice_length_m": built.slice_length,
-            "slice_length_rule": "given" if an.slice_length is not None else "16 R / (3 pi)",
+            "slice_length_rule": _slice_rule(built),
+            "slice_calibration": built.meta.get("slice_calibration"),
             "slip_stiffening": built.meta["slip_stiffening"], "rows": built.meta["rows"],
             "reference_point": built.ref_xy, "versions": versions()}
 
@@ -170,13 +194,29 @@ def _settlement_curve(built: BuiltModel, log: StageLog, res: StepResult):
     return curve, kp
 
 
+def _initial_from_harmonic(kp: dict[str, KeyPoint], elastic: ElasticStiffness) -> None:
+    """The initial stiffness key point from the harmonic 3D solve; the slice's figure (the
+    curve's first secant) stays beside it."""
+    old = kp.get("initial_stiffness")
+    lever = elastic.lever_arm
+    kp["initial_stiffness"] = KeyPoint(
+        "initial_stiffness", elastic.value, "kNm/rad",
+        "harmonic 3D elastic solve (n = 1), operational moduli, "
+        + (f"H = M / h with h = {lever:g} m" if lever else "moment at the tower base"),
+        {"moduli": "operational"},
+        {"slice": None if old is None else old.value,
+         "slice_method": None if old is None else old.method})
+
+
 def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None = None,
-              settings: StepSettings | None = None, dynamic: bool = True) -> Result:
+              settings: StepSettings | None = None, dynamic: bool = True,
+              elastic: ElasticStiffness | None = None) -> Result:
     """Run the stages of a built model and evaluate everything (see the module docstring).
 
     ``progress`` sees every converged pushover increment; ``settings`` overrides the pushover
     increments; ``dynamic`` False skips the small-strain analysis (its check is then
-    reported as not decided).
+    reported as not decided); ``elastic`` (the harmonic operational stiffness, computed
+    here when None and the design allows it) gives the initial stiffness.
     """
     t0 = time.perf_counter()
     design = built.design
@@ -192,7 +232,7 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     if failed is not None and failed is not final:  # an initial stage failed: no curve
         return Result("diverged", f"{failed.name} stage: {failed.result.message}", {}, {}, {},
                       [], info, {"total_s": t1 - t0, "build_s": built.meta.get("build_s", 0.0)},
-                      design.name, None, stage_rows, built, failed.result)
+                      design.name, None, stage_rows, built=built, pushover=failed.result)
     res = final.result
     dyn = None
     if design.loading.control == "settlement":
@@ -204,29 +244,88 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
         kp = analyse_curve(curve["rotation"], curve["moment"], design.keypoints.rotations,
                            design.keypoints.moments) if curve["rotation"].size >= 2 else {}
         status_kp = kp.get("ultimate")
+        if elastic is None and design.analysis.geometry == "plane_strain" \
+                and not check_harmonic_layout(design):
+            elastic = harmonic_stiffness(design)
+        if elastic is not None:
+            _initial_from_harmonic(kp, elastic)
         if dynamic:
-            dyn = dynamic_stiffness(design)
+            dyn = dynamic_stiffness(design, slice_length=built.slice_length)
         req = check_requirements(design, curve["rotation"], curve["moment"], kp,
                                  _least_compression(res), dyn)
     t2 = time.perf_counter()
     status: Status = "diverged" if res.status == "diverged" else \
         ("censored" if status_kp is not None and status_kp.extra["censored"] else "ok")
     stages_s = sum(o.seconds for o in log.outcomes[:-1])
-    timings = {"build_s": built.meta.get("build_s", 0.0), "stages_s": stages_s,
+    pre = built.meta.get("build_s", 0.0) + built.meta.get("harmonic_s", 0.0)
+    timings = {"harmonic_s": built.meta.get("harmonic_s", 0.0),
+               "build_s": built.meta.get("build_s", 0.0), "stages_s": stages_s,
                "pushover_s": final.seconds, "postprocess_s": t2 - t1,
-               "total_s": t2 - t0 + built.meta.get("build_s", 0.0),
+               "total_s": t2 - t0 + pre,
                "increments": len(res.records), "iterations": int(res.iterations.sum()),
                "cutbacks": res.cutbacks}
     return Result(status, res.message, curve, kp, req, _pile_envelopes(built, res), info,
-                  timings, design.name, dyn, stage_rows, built, res)
+                  timings, design.name, dyn, stage_rows, elastic=elastic, built=built,
+                  pushover=res)
+
+
+def prepare(design: Design) -> tuple[BuiltModel, ElasticStiffness | None]:
+    """The 2D model of a plane-strain or axisymmetric design, ready for :func:`run_built`,
+    and the harmonic 3D elastic stiffness (plane strain with rings of >= 3 piles in the
+    continuum; else None). A calibrated slice length is found here (one assembly of the
+    slice, a few factorisations; the mesh is reused)."""
+    t = time.perf_counter()
+    elastic = None
+    if design.analysis.geometry == "plane_strain" and not check_harmonic_layout(design):
+        elastic = harmonic_stiffness(design)
+    t_h = time.perf_counter()
+    built = build_model(design)
+    calibration = None
+    if design.analysis.slice_length == "calibrated" and elastic is not None:
+        L, calibration = calibrated_slice_length(built, elastic.value)
+        built = build_model(design, slice_length=L)
+    built.meta.update(build_s=time.perf_counter() - t_h, harmonic_s=t_h - t,
+                      slice_calibration=calibration)
+    return built, elastic
 
 
 def run_design(design: Design | dict, progress: Callable[[StepRecord], None] | None = None,
                dynamic: bool = True) -> Result:
-    """Build and run one design (a :class:`Design` or a nested dict, validated first)."""
+    """Build and run one design (a :class:`Design` or a nested dict, validated first).
+
+    Plane strain with the continuum: the harmonic 3D elastic solve first (initial
+    stiffness; the target of a calibrated slice length), then the slice pushover
+    (:func:`prepare`, :func:`run_built`). Harmonic geometry: the elastic 3D analysis alone
+    (:func:`run_harmonic`)."""
     if isinstance(design, dict):
         design = design_from_dict(design)
-    t = time.perf_counter()
-    built = build_model(design)
-    built.meta["build_s"] = time.perf_counter() - t
-    return run_built(built, progress, dynamic=dynamic)
+    if design.analysis.geometry == "harmonic":
+        return run_harmonic(design, dynamic)
+    built, elastic = prepare(design)
+    return run_built(built, progress, dynamic=dynamic, elastic=elastic)
+
+
+def run_harmonic(design: Design, dynamic: bool = True) -> Result:
+    """The elastic harmonic analysis of a design: the 3D stiffnesses at the tower base
+    (initial rotational, vertical, horizontal; the dynamic one with G0), no pushover, so the
+    capacity and the secant-stiffness checks are not decided."""
+    t0 = time.perf_counter()
+    el = harmonic_stiffness(design)
+    kp: dict[str, KeyPoint] = {}
+    _initial_from_harmonic(kp, el)
+    kp["vertical_stiffness"] = KeyPoint("vertical_stiffness", el.K_V, "kN/m",
+                                        "harmonic 3D elastic solve (n = 0)", {})
+    kp["horizontal_stiffness"] = KeyPoint("horizontal_stiffness", el.K_H, "kN/m",
+                                          "harmonic 3D elastic solve (n = 1), rotation held",
+                                          {})
+    dyn = dynamic_stiffness(design) if dynamic else None
+    req = check_requirements(design, np.zeros(0), np.zeros(0), kp, [], dyn)
+    info = {"dofs": el.dofs, "geometry": "harmonic", "harmonics": design.analysis.harmonics,
+            "element": design.analysis.element, "mesh": design.analysis.mesh,
+            "support": design.analysis.support, "near_field": el.near_field,
+            "slip_stiffening": design.piles.slip_stiffening, "versions": versions()}
+    total = time.perf_counter() - t0
+    return Result("ok", "elastic harmonic analysis: 3D stiffness only (no pushover, no "
+                  "capacity)", {}, kp, req, [], info, {"harmonic_s": el.seconds["total_s"],
+                                                      "total_s": total},
+                  design.name, dyn, [], elastic=el)

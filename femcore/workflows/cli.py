@@ -68,6 +68,20 @@ def _cmd_schema(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _slice_note(built) -> str:
+    from femcore.foundation.run import _slice_rule
+
+    return _slice_rule(built)
+
+
+def _harmonic_rows(design) -> list[str]:
+    return [f"design        {design.name}",
+            f"analysis      harmonic (elastic 3D stiffness), {design.analysis.element}, "
+            f"mesh {design.analysis.mesh}",
+            f"piles         {sum(r.count for r in design.piles.rings)} piles in "
+            f"{len(design.piles.rings)} rings (smeared ring beams)"]
+
+
 def _summary_rows(design, built) -> list[str]:
     rows = [f"design        {design.name}",
             f"analysis      {design.analysis.geometry}, {design.analysis.support} support, "
@@ -77,8 +91,7 @@ def _summary_rows(design, built) -> list[str]:
             f"cap           D = {design.cap.diameter:g} m, contact {design.cap.contact}",
             f"piles         {sum(r.count for r in design.piles.rings)} piles in "
             f"{len(design.piles.rings)} rings -> {len(built.rows)} rows",
-            f"slice length  L = {built.slice_length:.3f} m "
-            + ("(16 R / 3 pi)" if design.analysis.slice_length is None else "(given)"),
+            f"slice length  L = {built.slice_length:.3f} m ({_slice_note(built)})",
             f"model         {built.model.mesh.n_nodes} nodes, {built.model.n_dofs} DOFs"]
     for pr in built.rows:
         rows.append(f"  row x = {pr.row.x:7.3f} m   n = {pr.row.count:4.1f}   "
@@ -90,8 +103,11 @@ def _cmd_check(args: argparse.Namespace) -> int:
     from femcore.foundation.build import build_model
 
     design = _load(args.design)
-    built = build_model(design)
     print(f"{args.design}: valid")
+    if design.analysis.geometry == "harmonic":
+        print("\n".join(_harmonic_rows(design)))
+        return EXIT_OK
+    built = build_model(design)
     print("\n".join(_summary_rows(design, built)))
     return EXIT_OK
 
@@ -117,8 +133,16 @@ def _print_summary(result, out: Path, t_total: float) -> None:
     dyn = result.dynamic
     if dyn is not None:
         print(f"  {'dynamic_stiffness':28s} "
-              + (f"{dyn.value / 1e6:10.3f} GNm/rad  {dyn.moduli}" if dyn.value
+              + (f"{dyn.value / 1e6:10.3f} GNm/rad  {dyn.method}, {dyn.moduli}" if dyn.value
                  else f"{'-':>10s}          {dyn.reason}"))
+    slice_rows = [(k, v.extra.get("slice")) for k, v in result.keypoints.items()
+                  if k == "initial_stiffness"]
+    slice_rows += [("dynamic_stiffness", dyn.slice_value)] if dyn is not None and \
+        dyn.method != "plane-strain slice" else []
+    slice_rows = [(k, v) for k, v in slice_rows if v]
+    if slice_rows:
+        print("  plane-strain slice values beside the harmonic ones: " + ", ".join(
+            f"{k} {v / 1e6:.3f} GNm/rad" for k, v in slice_rows))
     if result.requirements:
         print("requirement checks")
         for name, chk in result.requirements.items():
@@ -133,8 +157,7 @@ def _print_summary(result, out: Path, t_total: float) -> None:
 
 
 def _cmd_run(args: argparse.Namespace) -> int:
-    from femcore.foundation.build import build_model
-    from femcore.foundation.run import run_built
+    from femcore.foundation.run import prepare, run_built, run_harmonic
     from femcore.workflows.report import write_report
     from femcore.workflows.results import write_curve_csv, write_fields, write_result_json
 
@@ -145,9 +168,19 @@ def _cmd_run(args: argparse.Namespace) -> int:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise InputProblem(f"--out {out}: cannot create the folder ({exc.strerror})") from None
-    t_build = time.perf_counter()
-    built = build_model(design)
-    built.meta["build_s"] = time.perf_counter() - t_build
+    if design.analysis.geometry == "harmonic":
+        if not args.quiet:
+            print("\n".join(_harmonic_rows(design)))
+        result = run_harmonic(design)
+        write_report(result, out)
+        t_total = time.perf_counter() - t0
+        write_result_json(result, out / "result.json")
+        if not args.quiet:
+            _print_summary(result, out, t_total)
+        else:
+            print(f"{design.name}: {result.status}; results in {out}/")
+        return EXIT_OK
+    built, elastic = prepare(design)
     vertical = design.loading.control == "settlement"
     if not args.quiet:
         print("\n".join(_summary_rows(design, built)))
@@ -160,7 +193,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
             print(f"{first * 1e3:16.4f} {_moment(rec, built) / 1e3:13.2f} "
                   f"{rec.iterations:10d}", flush=True)
 
-    result = run_built(built, progress=progress)
+    result = run_built(built, progress=progress, elastic=elastic)
     t_analysis = time.perf_counter() - t0
     if result.curve:
         write_curve_csv(result, out / "curve.csv")

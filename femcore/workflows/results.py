@@ -15,7 +15,12 @@ from pathlib import Path
 import numpy as np
 
 from femcore.foundation.keypoints import KeyPoint
-from femcore.foundation.records import CAUTION, DynamicStiffness, RequirementCheck
+from femcore.foundation.records import (
+    CAUTION,
+    DynamicStiffness,
+    ElasticStiffness,
+    RequirementCheck,
+)
 from femcore.foundation.run import RESULT_SCHEMA_VERSION, Result
 from femcore.model import SolidBlock
 
@@ -106,10 +111,11 @@ def result_file_model():
     KeyPointOut = pydantic_dataclass(config=strict)(KeyPoint)
     Requirement = pydantic_dataclass(config=strict, frozen=True)(RequirementCheck)
     Dynamic = pydantic_dataclass(config=strict, frozen=True)(DynamicStiffness)
+    Elastic = pydantic_dataclass(config=strict, frozen=True)(ElasticStiffness)
 
     class ResultFile(BaseModel):
         model_config = ConfigDict(extra="forbid")
-        schema_version: Literal["2"]
+        schema_version: Literal["3"]
         design_schema_version: str
         status: Literal["ok", "censored", "diverged"]
         message: str
@@ -118,6 +124,7 @@ def result_file_model():
         keypoints: dict[str, KeyPointOut]
         requirements: dict[str, Requirement]
         dynamic: Dynamic | None
+        elastic: Elastic | None
         piles: list[dict]
         model: dict
         stages: list[dict]
