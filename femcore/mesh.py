@@ -156,6 +156,27 @@ class Mesh:
         mesh = Mesh(pts, conn, self.element, self.cell_sets, self.edge_sets, self.node_sets)
         return mesh, new_index
 
+    def without_cells(self, cells: NDArray[np.int64]):
+        """The mesh without ``cells`` and without the nodes only they used.
+
+        Returns the new mesh and ``old_to_new (n_nodes,)`` (-1 for removed nodes). Cell sets
+        lose the removed cells; edge and node sets keep what still exists."""
+        drop = np.zeros(self.n_cells, dtype=bool)
+        drop[np.asarray(cells, dtype=np.int64)] = True
+        keep_cells = np.flatnonzero(~drop)
+        used = np.zeros(self.n_nodes, dtype=bool)
+        used[self.cells[keep_cells]] = True
+        old_to_new = np.full(self.n_nodes, -1, dtype=np.int64)
+        old_to_new[used] = np.arange(int(used.sum()))
+        cell_new = np.full(self.n_cells, -1, dtype=np.int64)
+        cell_new[keep_cells] = np.arange(keep_cells.size)
+        csets = {k: cell_new[v][cell_new[v] >= 0] for k, v in self.cell_sets.items()}
+        esets = {k: old_to_new[v[np.all(used[v], axis=1)]] for k, v in self.edge_sets.items()}
+        nsets = {k: old_to_new[v[used[v]]] for k, v in self.node_sets.items()}
+        mesh = Mesh(self.points[used], old_to_new[self.cells[keep_cells]], self.element,
+                    csets, esets, nsets)
+        return mesh, old_to_new
+
     @staticmethod
     def of_type(name: str) -> ReferenceElement:
         """Reference triangle by name ("T3", "T6", "T15")."""

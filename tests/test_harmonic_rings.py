@@ -174,13 +174,12 @@ def test_more_piles_and_wider_rings_stiffen_in_3d():
     assert k16 > 1.3 * k16_inner
 
 
-def test_calibrated_slice_follows_the_harmonic_cap_size_trend():
-    """16 piles on a 9 m ring, cap contact none, 20 m and 30 m caps. The cap-rule slice
-    length L = 16 R / (3 pi) follows the cap (x 1.5), so that slice's stiffness jumps with
-    the cap (measured x 1.51 here); the calibrated slice follows the harmonic 3D trend by
-    construction (to the 0.2 % calibration tolerance). Measured harmonic change: +20 % on
-    this coarse T6 mesh, +15 % on the standard T15 mesh (not yet explained: not the cap's
-    flexibility, the domain width or the underside contact; see docs/harmonic.md)."""
+def test_cap_size_does_not_matter_without_contact():
+    """16 piles on a 9 m ring, cap contact none (the cap touches no soil), 20 m and 30 m
+    caps (the same pile heads, the cap stiff in both). In 3D the cap size does not matter
+    here: the harmonic K changes by < 3 % (measured -0.3 %; the rest is the deeper model of
+    the wider cap) and the calibrated slice by < 5 % (measured -0.25 %, the issue's target),
+    while the cap-rule slice length L = 16 R / (3 pi) follows the cap (measured +26 %)."""
     base = _coarse()
     out = {}
     for D in (20.0, 30.0):
@@ -193,8 +192,42 @@ def test_calibrated_slice_follows_the_harmonic_cap_size_trend():
         L, _ = calibrated_slice_length(b, e.value)
         out[D] = (e.value, rule, slice_stiffness(b, [L])[0][0])
     (h20, r20, c20), (h30, r30, c30) = out[20.0], out[30.0]
-    assert c30 / c20 == pytest.approx(h30 / h20, rel=0.005)
-    assert r30 / r20 > h30 / h20 + 0.2
+    assert h30 / h20 == pytest.approx(1.0, abs=0.03)
+    assert c30 / c20 == pytest.approx(1.0, abs=0.05)
+    assert r30 / r20 > 1.15
+
+
+def test_no_contact_means_no_soil_on_the_cap():
+    """Contact none: no soil node is shared with the cap, the backfill above the cap is gone
+    and its weight (sigma_v at the cap top, total stress) loads the cap top: the vertical
+    resultant of that load equals the integral of sigma_v over the top edges (here checked
+    against the weight of the removed soil volume within 2 %: the edges are straight, the
+    profile piecewise linear)."""
+    from femcore.foundation.stages import weight_loads
+    from meshing import regions
+
+    d = _coarse()
+    b = build_model(d)
+    mesh = b.model.mesh
+    cap_cells = mesh.cell_sets[regions.CAP]
+    soil = np.setdiff1d(np.arange(mesh.n_cells), cap_cells)
+    assert np.intersect1d(np.unique(mesh.cells[cap_cells]), np.unique(mesh.cells[soil])).size == 0
+    edges = b.meta["backfill_edges"]
+    assert len(edges) > 0
+    from femcore.foundation.build import backfill_load
+
+    f = backfill_load(b.model, edges, b.profile)
+    V = -f[1:2 * mesh.n_nodes:2].sum()  # kN per metre of slice, downward positive
+    # removed volume: the wedge between the cap top and the ground, both sides, x pedestal..R
+    cap = d.cap
+    R, rp = cap.diameter / 2, cap.pedestal_diameter / 2
+    ye, yc = -cap.underside_depth + cap.edge_thickness, -cap.underside_depth + cap.centre_thickness
+    xs = np.linspace(rp, R, 2001)
+    ytop = yc + (ye - yc) * (xs - rp) / (R - rp)
+    sv = b.profile.total_vertical(-ytop)
+    expected = 2 * np.trapezoid(sv, xs)
+    assert V == pytest.approx(expected, rel=0.02)
+    assert weight_loads(b)[1::2].sum() < 0
 
 
 def test_calibrated_slice_matches_the_harmonic_stiffness():

@@ -6,8 +6,9 @@ the file is read. Two supports:
 * ``continuum``: soil as T6/T15 continuum (Tresca, Mohr-Coulomb or elastic layers, K0 initial
   stresses with the water table), an elastic cap continuum, and each pile row a beam whose
   nodes lie on the soil nodes of its line (gmsh puts the line into the soil mesh), tied to
-  them node by node by slip springs (shaft t-z, lateral p-y, tip q-z). Cap contact ``none``
-  splits the cap underside from the soil (no cap bearing); ``bonded`` shares the nodes;
+  them node by node by slip springs (shaft t-z, lateral p-y, tip q-z). Cap contact ``none``:
+  the cap touches no soil (underside and edge split, the backfill above it removed and its
+  weight applied to the cap top); ``bonded`` shares the nodes;
   ``frictional`` splits them and joins them by a zero-thickness contact (Coulomb friction, no
   tension: the cap can lift off).
 * ``springs``: no soil continuum; the same springs anchored to fixed ground and a rigid cap
@@ -240,6 +241,64 @@ def slice_length_of(design: Design) -> float:
         design.cap.diameter / 2)
 
 
+def backfill_lines(design: Design, half: bool) -> list:
+    """Vertical mesh lines from the cap edge top to the ground (x = +-R), so that the soil
+    above the cap (the backfill) is a region of its own; none when the edge top is not
+    below ground."""
+    cap = design.cap
+    R = cap.diameter / 2
+    ye = -cap.underside_depth + cap.edge_thickness
+    if ye >= -1e-9:
+        return []
+    return [((R, ye), (R, 0.0))] + ([] if half else [((-R, ye), (-R, 0.0))])
+
+
+def free_cap(mesh: Mesh, design: Design):
+    """Cap contact ``none``: the cap touches no soil. The backfill above the cap (soil cells
+    over the cap, inside its radius) is removed from the mesh (its weight is a load on the
+    cap top, :func:`backfill_load`), and every node the cap shares with the soil (underside
+    and edge) is split. Returns the new mesh, the split nodes, the copy index and the cap top
+    edges that carried the backfill."""
+    cap = design.cap
+    R, yu = cap.diameter / 2, -cap.underside_depth
+    tol = 1e-6 * max(1.0, R)
+    cap_cells = mesh.cell_sets[regions.CAP]
+    is_cap = np.zeros(mesh.n_cells, dtype=bool)
+    is_cap[cap_cells] = True
+    centre = mesh.points[mesh.cells[:, :3]].mean(axis=1)  # (c, 2) corner centroids
+    backfill = np.flatnonzero(~is_cap & (np.abs(centre[:, 0]) < R - tol)
+                              & (centre[:, 1] > yu + tol))
+    if backfill.size:
+        mesh, _ = mesh.without_cells(backfill)
+        cap_cells = mesh.cell_sets[regions.CAP]
+    soil = np.ones(mesh.n_cells, dtype=bool)
+    soil[cap_cells] = False
+    shared = np.intersect1d(np.unique(mesh.cells[cap_cells]), np.unique(mesh.cells[soil]))
+    edges = mesh.edge_sets.get(regions.CAP_SOIL, np.zeros((0, 2), dtype=np.int64))
+    ec = mesh.points[edges].mean(axis=1) if len(edges) else np.zeros((0, 2))
+    top = edges[(ec[:, 1] > yu + tol) & (np.abs(ec[:, 0]) < R - tol)] if len(edges) else edges
+    new_mesh, new_index = mesh.split_nodes(shared, cap_cells)
+    top = np.where(new_index[top] >= 0, new_index[top], top)  # the cap's own copies
+    return new_mesh, shared, new_index, top
+
+
+def backfill_load(model: Model, edges, profile: Profile) -> NDArray[np.float64]:
+    """The weight of the removed backfill on the cap top edges: a vertical load
+    sigma_v(depth) (total stress of the profile) per unit horizontal projection, i.e. the
+    traction (0, -sigma_v |n_y|) on a sloped edge."""
+    from ..assembly import assemble_vector
+    from ..loads import edge_geometry
+
+    if len(edges) == 0:
+        return np.zeros(model.n_dofs)
+    N, x, normal, ds = edge_geometry(model.mesh, edges, model.analysis)
+    sv = profile.total_vertical(np.maximum(-x[..., 1], 0.0)) * np.abs(normal[..., 1])  # (e, q)
+    f_e = np.zeros((len(edges), N.shape[1], 2))  # (e, a, 2)
+    f_e[..., 1] = -np.einsum("qa,eq,eq->ea", N, sv, ds)
+    return assemble_vector(model.n_dofs, model.dofmap.cell_dofs(edges),
+                           f_e.reshape(len(edges), -1))
+
+
 def build_model(design: Design, slice_length: float | None = None) -> BuiltModel:
     """The 2D model of a (validated) design (see module docstring); ``slice_length``
     overrides the design's out-of-plane length (the calibrated value)."""
@@ -274,14 +333,18 @@ def build_model(design: Design, slice_length: float | None = None) -> BuiltModel
         return _build_springs(design, rows, L, profile, soil_at, ref_xy, ped_top, meta,
                               (A, I, perimeter, r0))
     lines = [_row_line(r, head_y, piles.length) for r in rows]
-    mesh = domain_mesh(design, lines, half=axisym)
+    extra = backfill_lines(design, axisym) if cap.contact == "none" else []
+    mesh = domain_mesh(design, lines + extra, half=axisym)
     width = mesh_width(design, half=axisym)
     depth = design.model_depth
     split_nodes = np.zeros(0, dtype=np.int64)
     new_index = None
     underside = None
-    if cap.contact in ("none", "frictional"):
+    top_edges = np.zeros((0, mesh.element.order + 1), dtype=np.int64)
+    if cap.contact == "frictional":
         mesh, split_nodes, new_index, underside = _split_underside(mesh, head_y, R)
+    elif cap.contact == "none":
+        mesh, split_nodes, new_index, top_edges = free_cap(mesh, design)
 
     model = Model(mesh, an.geometry)
     tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])
@@ -327,7 +390,7 @@ def build_model(design: Design, slice_length: float | None = None) -> BuiltModel
         _tie_head_to_cap(cons, model, pr.beam_dofs[0], int(cap_head),
                          rotation=piles.head == "fixed")
     meta.update({"n_split_nodes": int(split_nodes.size), "domain_width_m": width,
-                 "domain_depth_m": depth})
+                 "domain_depth_m": depth, "backfill_edges": top_edges})
     return BuiltModel(design, model, cons, "ref", ref_xy, ped_top, L, pile_rows, profile, meta)
 
 

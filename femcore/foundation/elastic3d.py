@@ -19,8 +19,9 @@ Springs per pile, in series:
   of the wall of its row (derivation in ``docs/harmonic.md``).
 
 The rigid-body reference point is the tower base (pedestal top, on the axis); the pedestal
-top is tied rigidly to it. Cap contact ``none`` splits the underside from the soil;
-``bonded`` and ``frictional`` (closed at small loads, no slip) share the nodes.
+top is tied rigidly to it. Cap contact ``none``: the cap touches no soil (as in the slice:
+underside and edge split, no backfill); ``bonded`` and ``frictional`` (closed at small
+loads, no slip) share the nodes.
 
 :func:`calibrated_slice_length` picks the out-of-plane length L of the plane-strain slice so
 that its elastic rotational stiffness under the load case equals the harmonic value.
@@ -47,8 +48,9 @@ from .build import (
     _row_line,
     _soil_material,
     _SoilAtDepth,
-    _split_underside,
+    backfill_lines,
     domain_mesh,
+    free_cap,
     soil_profile,
 )
 from .design import Design
@@ -147,14 +149,14 @@ def build_harmonic(design: Design, near_field: bool = True,
         raise HarmonicError("; ".join(problems))
     t0 = time.perf_counter()
     cap, piles = design.cap, design.piles
-    R = cap.diameter / 2
     head_y = -cap.underside_depth
     rows = [Row(r.radius, float(r.count), r.rake, i) for i, r in enumerate(piles.rings)]
     lines = [_row_line(r, head_y, piles.length) for r in rows]
-    mesh = domain_mesh(design, lines, half=True)
+    extra = backfill_lines(design, True) if cap.contact == "none" else []
+    mesh = domain_mesh(design, lines + extra, half=True)
     new_index = None
-    if cap.contact == "none":
-        mesh, _, new_index, _ = _split_underside(mesh, head_y, R)
+    if cap.contact == "none":  # the cap touches no soil (no backfill, edge and base free)
+        mesh, _, new_index, _ = free_cap(mesh, design)
     _, ped_top = _cap_polygon(design, half=True)
     model = HarmonicModel(mesh, 1)
     tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])

@@ -33,7 +33,7 @@ from numpy.typing import NDArray
 from ..initial_stress import apply_k0, profile_loads
 from ..model import SolidBlock
 from ..stepping import Stepper, StepRecord, StepResult, StepSettings
-from .build import BuiltModel
+from .build import BuiltModel, backfill_load
 
 __all__ = ["StageState", "StageOutcome", "AtRestStresses", "SelfWeight", "VerticalLoad",
            "Pushover", "SettlementPath", "run_stages", "stages_for", "LOAD_RAMP",
@@ -121,7 +121,11 @@ def weight_loads(built: BuiltModel) -> NDArray[np.float64]:
     point (springs)."""
     model = built.model
     if built.design.analysis.support == "continuum":
-        return profile_loads(model, built.profile, _soil_blocks(built)) + model.gravity()
+        f = profile_loads(model, built.profile, _soil_blocks(built)) + model.gravity()
+        edges = built.meta.get("backfill_edges")
+        if edges is not None and len(edges):
+            f += backfill_load(model, edges, built.profile)
+        return f
     f = np.zeros(model.n_dofs)
     f[model.dofmap.ref_dof(built.ref, 1)] = -built.meta["cap_weight_kN_per_m"]
     return f
