@@ -113,6 +113,32 @@ def harmonic_pile_ring(n_piles: int = 4, ring_radius: float = 3.0, diameter: flo
             "seconds": time.perf_counter() - t0}
 
 
+def harmonic_single_pile(diameter: float = 1.0, length: float = 10.0, G: float = 1.0e4,
+                         nu: float = 0.3, Ep_over_G: float = 1000.0, element: str = "T15",
+                         h_near: float | None = None) -> dict:
+    """K of one circular pile on the axis as a solid column r <= d/2 (the centre pile of
+    the foundation model), head flush with the ground tied to a rigid cap; the geometry of
+    ``reference3d.single_pile_stiffness``."""
+    t0 = time.perf_counter()
+    r0, Lp = diameter / 2, length
+    h = r0 / 2 if h_near is None else h_near
+    mesh = layered_domain(4 * Lp, 4 * Lp, [], x_min=0.0,
+                          lines=[((r0, 0.0), (r0, -Lp)), ((0.0, -Lp), (r0, -Lp))],
+                          h=0.8 * Lp, h_near=h, refine_radius=4 * h + diameter,
+                          element=element)
+    c = mesh.points[mesh.cells[:, :3]].mean(axis=1)
+    column = (c[:, 0] < r0) & (c[:, 1] > -Lp)
+    model = HarmonicModel(mesh, 1)
+    model.add_block("soil", np.flatnonzero(~column), E=2 * G * (1 + nu), nu=nu)
+    model.add_block("pile", np.flatnonzero(column), E=Ep_over_G * G, nu=0.2)
+    pts = mesh.points
+    head = np.flatnonzero((np.abs(pts[:, 1]) < 1e-9) & (pts[:, 0] <= r0 + 1e-9))
+    far = np.union1d(mesh.nodes_of("base"), mesh.nodes_of("right"))
+    k = rigid_stiffness(model, head, far, "bonded")
+    return {"K_V": k.K_V, "K_H": k.K_H, "K_R": k.K_R, "K_HR": k.K_HR,
+            "n_dofs": model.n_dofs, "seconds": time.perf_counter() - t0}
+
+
 def ring_table(near_field: bool = True) -> list[dict]:
     """Harmonic / 3D ratios for every case of the stored 3D table."""
     ref = json.loads(DATA.read_text())

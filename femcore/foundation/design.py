@@ -150,7 +150,7 @@ class Cap(_Model):
 
 
 class PileRing(_Model):
-    radius: Pos = Field(description="ring radius, m")
+    radius: NonNeg = Field(description="ring radius, m (0: one pile at the centre)")
     count: int = Field(ge=1, le=200, description="number of piles in the ring")
     rake: float = Field(0.0, ge=0.0, le=0.34, description="outward rake, horizontal per "
                         "vertical (1/6 for 1:6; at most about 1:3)")
@@ -255,6 +255,10 @@ class Design(_Model):
         R = self.cap.diameter / 2
         w = self.piles.width
         for i, ring in enumerate(self.piles.rings):
+            if ring.radius == 0 and (ring.count != 1 or ring.rake != 0):
+                problems.append(f"piles.rings.{i}: radius 0 is one vertical centre pile "
+                                f"(need count = 1 and rake = 0, got count = {ring.count}, "
+                                f"rake = {ring.rake})")
             if ring.radius + w / 2 > R:
                 problems.append(f"piles.rings.{i}.radius = {ring.radius} m: the piles must lie "
                                 f"inside the cap (radius + width/2 <= {R} m)")
@@ -285,9 +289,10 @@ class Design(_Model):
                 problems.append("analysis.support must be 'continuum' for harmonic analyses "
                                 f"(got {self.analysis.support!r})")
             for i, ring in enumerate(self.piles.rings):
-                if ring.count < 3:
+                if ring.count < 3 and ring.radius > 0:
                     problems.append(f"piles.rings.{i}.count = {ring.count}: a ring of the "
-                                    "harmonic model needs at least 3 piles (allowed: 3-200)")
+                                    "harmonic model needs at least 3 piles (allowed: 3-200, "
+                                    "or radius 0 with one centre pile)")
         if self.analysis.geometry == "axisymmetric" and self.loading.control != "settlement":
             problems.append("loading.control must be 'settlement' for axisymmetric analyses")
         if self.loading.control == "settlement" and self.analysis.geometry != "axisymmetric":

@@ -70,9 +70,10 @@ def check_harmonic_layout(design: Design) -> list[str]:
         problems.append("analysis.support = 'springs': the harmonic model needs the soil "
                         "continuum (support = 'continuum')")
     for i, ring in enumerate(design.piles.rings):
-        if ring.count < 3:
+        if ring.count < 3 and ring.radius > 0:
             problems.append(f"piles.rings.{i}.count = {ring.count}: a ring of the harmonic "
-                            "model needs at least 3 piles (allowed: 3-200)")
+                            "model needs at least 3 piles (allowed: 3-200, or radius 0 with "
+                            "one centre pile)")
     return problems
 
 
@@ -123,6 +124,7 @@ class HarmonicFoundation:
     fixed_head: bool
     ref: str = "ref"
     meta: dict = field(default_factory=dict)
+    column_ties: list = field(default_factory=list)  # (column top nodes, cap copies)
     tower_base: str = "bonded"  # "smooth" ties only W of the pedestal top at n = 0
 
     def constraints(self, n: int) -> HarmonicConstraints:
@@ -132,6 +134,12 @@ class HarmonicFoundation:
         for line, (node, cells) in zip(self.rings, self.heads, strict=True):
             ring_support(cons, line)
             tie_head_to_solid(cons, line, node, cells, self.fixed_head)
+        for col, copies in self.column_ties:  # a centre pile's top follows the cap
+            off = self.model.mesh.points[col, 0] > 0  # on the axis V follows U there
+            for c in (0, 1) if n == 0 else (0, 1, 2):  # V_0 is the (fixed) torsion
+                sel = off if c == 2 else np.ones(col.size, dtype=bool)
+                cons.tie(3 * col[sel] + c, (3 * copies[sel] + c)[:, None],
+                         np.ones((int(sel.sum()), 1)))
         cons.tie_rigid(self.top_nodes, self.ref, self.tower_base if n == 0 else "bonded")
         return cons
 
@@ -151,29 +159,53 @@ def build_harmonic(design: Design, near_field: bool = True,
     cap, piles = design.cap, design.piles
     head_y = -cap.underside_depth
     rows = [Row(r.radius, float(r.count), r.rake, i) for i, r in enumerate(piles.rings)]
+    A, I, perimeter, r0 = _pile_section(design)
     lines = [_row_line(r, head_y, piles.length) for r in rows]
-    extra = backfill_lines(design, True) if cap.contact == "none" else []
+    tip_y = head_y - piles.length
+    centre = [k for k, r in enumerate(piles.rings) if r.radius == 0]
+    extra = []
+    for k in centre:  # a centre pile is a solid column r <= r0 (equal area) on the axis
+        lines[k] = ((r0, head_y), (r0, tip_y))
+        extra.append(((0.0, tip_y), (r0, tip_y)))
+    extra += backfill_lines(design, True) if cap.contact == "none" else []
     mesh = domain_mesh(design, lines + extra, half=True)
     new_index = None
     if cap.contact == "none":  # the cap touches no soil (no backfill, edge and base free)
         mesh, _, new_index, _ = free_cap(mesh, design)
     _, ped_top = _cap_polygon(design, half=True)
     model = HarmonicModel(mesh, 1)
+    column = np.zeros(0, dtype=np.int64)
+    if centre:
+        c = mesh.points[mesh.cells[:, :3]].mean(axis=1)  # (cells, 2)
+        not_cap = np.ones(mesh.n_cells, dtype=bool)
+        not_cap[mesh.cell_sets[regions.CAP]] = False
+        column = np.flatnonzero(not_cap & (c[:, 0] < r0) & (c[:, 1] < head_y)
+                                & (c[:, 1] > tip_y))
     tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])
     for k, ly in enumerate(design.soil.layers, start=1):
         name = regions.layer(k)
         if name in mesh.cell_sets and len(mesh.cell_sets[name]):
+            cells = np.setdiff1d(mesh.cell_sets[name], column)
             mat = _soil_material(ly, tops[k - 1])
-            model.add_block(ly.name, name, material=LinearElastic(
+            model.add_block(ly.name, cells, material=LinearElastic(
                 mat.E, mat.nu, E_gradient=mat.E_gradient, depth_ref=mat.depth_ref))
     model.add_block("cap", regions.CAP, E=cap.E, nu=cap.nu)
+    column_ties = []
+    if column.size:
+        model.add_block("centre_pile", column, E=piles.E, nu=0.2)
+        col_nodes = np.unique(mesh.cells[column])
+        at_top = col_nodes[np.abs(mesh.points[col_nodes, 1] - head_y) < 1e-6 * cap.diameter]
+        if new_index is not None:
+            at_top = at_top[new_index[at_top] >= 0]
+            column_ties.append((at_top, new_index[at_top]))
     model.add_reference_point("ref", ped_top)
 
     soil_at = _SoilAtDepth(design, soil_profile(design))
-    A, I, perimeter, r0 = _pile_section(design)
     cap_cells = mesh.cell_sets[regions.CAP]
     rings, heads, nf_info = [], [], []
     for k, ring in enumerate(piles.rings, start=1):
+        if ring.radius == 0:
+            continue
         nodes = np.unique(mesh.edge_sets[regions.line(k)])
         head = np.array(lines[k - 1][0])
         nodes = nodes[np.argsort(np.hypot(*(mesh.points[nodes] - head).T))]
@@ -216,7 +248,8 @@ def build_harmonic(design: Design, near_field: bool = True,
     meta = {"nodes": mesh.n_nodes, "dofs": model.n_dofs, "near_field": nf_info,
             "build_s": time.perf_counter() - t0}
     return HarmonicFoundation(design, model, rings, heads, top, mesh.nodes_of("base"),
-                              mesh.nodes_of("right"), piles.head == "fixed", "ref", meta)
+                              mesh.nodes_of("right"), piles.head == "fixed", "ref", meta,
+                              column_ties)
 
 
 def _lever(loading) -> float | None:
