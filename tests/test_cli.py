@@ -149,6 +149,11 @@ BAD_INPUTS = [
     (("cap.edge_thickness", 4.0), "edge_thickness"),
     (("loading.rotation_max", 2.0), "loading.rotation_max"),
     (("name", ...), "name"),
+    (("analysis.harmonics", 0), "analysis.harmonics"),
+    (("analysis.harmonics", 12), "analysis.harmonics"),
+    (("analysis.geometry", "3d"), "analysis.geometry"),
+    (("analysis.slice_length", "auto"), "analysis.slice_length"),
+    (("piles.rings.0.radius", -1.0), "piles.rings.0.radius"),
 ]
 
 
@@ -216,3 +221,37 @@ def test_random_perturbations_never_traceback(tmp_path, path, value):
         return
     code = cli.main(["check", str(f)])
     assert code in (0, 2)
+
+
+def test_harmonic_run_end_to_end(tmp_path, capsys):
+    """geometry = "harmonic": the elastic 3D analysis alone. Exit 0, result.json valid, the
+    initial stiffness equals the Python API's harmonic solve, the capacity and secant checks
+    are "not decided" (no pushover), the dynamic check is decided; the summary says so."""
+    from femcore.foundation.elastic3d import harmonic_stiffness
+
+    data = _bad(("analysis.geometry", "harmonic"))
+    data["analysis"].update(element="T6", mesh="coarse")
+    path = tmp_path / "harm.toml"
+    path.write_text(_toml(data))
+    out = tmp_path / "out"
+    assert cli.main(["run", str(path), "--out", str(out)]) == 0
+    printed = capsys.readouterr().out
+    assert "harmonic" in printed and "Caution" in printed
+    res = json.loads((out / "result.json").read_text())
+    result_file_model().model_validate(res)
+    ref = harmonic_stiffness(load_design(path))
+    assert res["keypoints"]["initial_stiffness"]["value"] == pytest.approx(ref.value, rel=1e-9)
+    assert res["requirements"]["capacity"]["passed"] is None
+    assert res["requirements"]["dynamic_stiffness"]["passed"] is not None
+    assert res["elastic"]["K_R"] > 0 and res["dynamic"]["method"].startswith("harmonic")
+
+
+def test_harmonic_with_a_two_pile_ring_is_refused(tmp_path, capsys):
+    data = _bad(("analysis.geometry", "harmonic"))
+    data["piles"]["rings"][1]["count"] = 2
+    data["piles"]["rings"][1]["radius"] = 3.0
+    path = tmp_path / "bad.toml"
+    path.write_text(_toml(data))
+    assert cli.main(["run", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert "piles.rings.1.count = 2" in err and "at least 3" in err and "Traceback" not in err
