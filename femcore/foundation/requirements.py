@@ -2,7 +2,8 @@
 
 * ``static_stiffness``: secant M / theta of the pushover at ``static_stiffness_moment``
   (operational moduli E of each layer) >= ``static_stiffness_min``;
-* ``dynamic_stiffness``: the small-strain (G0) elastic stiffness >= ``dynamic_stiffness_min``;
+* ``dynamic_stiffness``: the small-strain (G0) elastic stiffness (harmonic 3D solve where the
+  design allows it) >= ``dynamic_stiffness_min``;
 * ``capacity``: ultimate moment / ``resistance_factor`` >= ``design_moment``;
 * ``no_pile_tension``: the least pile axial compression up to ``no_tension_moment`` >= 0.
 
@@ -63,7 +64,8 @@ def check_requirements(design: Design, rotation: NDArray[np.float64],
             (dynamic.reason or "")
         out["dynamic_stiffness"] = _ratio_check(
             "dynamic_stiffness", value, req.dynamic_stiffness_min, "kNm/rad",
-            "small-strain G0 moduli, linear elastic small rotation", why,
+            "small-strain G0 moduli, elastic, M / theta under a moment ("
+            + (dynamic.method if dynamic is not None else "not computed") + ")", why,
             at_moment=req.dynamic_stiffness_moment)
     if req.design_moment is not None:
         ult = keypoints.get("ultimate")

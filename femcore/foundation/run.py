@@ -201,8 +201,8 @@ def _initial_from_harmonic(kp: dict[str, KeyPoint], elastic: ElasticStiffness) -
     lever = elastic.lever_arm
     kp["initial_stiffness"] = KeyPoint(
         "initial_stiffness", elastic.value, "kNm/rad",
-        "harmonic 3D elastic solve (n = 1), operational moduli, "
-        + (f"H = M / h with h = {lever:g} m" if lever else "moment at the tower base"),
+        "harmonic 3D solve n = 1, operational E, "
+        + (f"H = M/h, h = {lever:g} m" if lever else "moment only"),
         {"moduli": "operational"},
         {"slice": None if old is None else old.value,
          "slice_method": None if old is None else old.method})

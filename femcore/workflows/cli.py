@@ -148,9 +148,15 @@ def _print_summary(result, out: Path, t_total: float) -> None:
         for name, chk in result.requirements.items():
             margin = "" if chk.margin is None else f"   margin {100 * chk.margin:+7.1f} %"
             print(f"  {name:28s} {_verdict(chk):4s}{margin}")
-    print(f"timings       {t_total:.1f} s total (pushover {result.timings.get('pushover_s', 0):.1f}"
-          f" s, {result.timings.get('increments', 0)} increments, "
-          f"{result.timings.get('iterations', 0)} Newton iterations)")
+    tm = result.timings
+    if result.model.get("geometry") == "harmonic":
+        print(f"timings       {t_total:.1f} s total (harmonic solves "
+              f"{tm.get('harmonic_s', 0):.1f} s, {result.model.get('dofs')} DOFs)")
+    else:
+        print(f"timings       {t_total:.1f} s total (harmonic 3D solve and slice calibration "
+              f"{tm.get('harmonic_s', 0):.1f} s, pushover {tm.get('pushover_s', 0):.1f} s, "
+              f"{tm.get('increments', 0)} increments, {tm.get('iterations', 0)} Newton "
+              "iterations)")
     print(f"results       {out}/")
     print()
     print(CAUTION)

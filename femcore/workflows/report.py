@@ -50,16 +50,34 @@ def _summary_page(plt, result: Result):
                      ("" if chk.margin is None else f"  margin {100 * chk.margin:+.1f} %"))
     dynamic = result.dynamic
     if dynamic is not None:
-        lines += ["", f"Dynamic rotational stiffness ({dynamic.moduli}): "
-                  f"{_fmt(dynamic.value, 1e6, 4)} GNm/rad"
-                  + ("" if dynamic.value else f"  ({dynamic.reason})")]
+        lines += ["", f"Dynamic rotational stiffness: {_fmt(dynamic.value, 1e6, 4)} GNm/rad"
+                  + (f"  ({dynamic.method})" if dynamic.value else f"  ({dynamic.reason})"),
+                  f"  moduli: {dynamic.moduli}"]
+        if dynamic.slice_value and dynamic.method != "plane-strain slice":
+            lines.append(f"  plane-strain slice value: {_fmt(dynamic.slice_value, 1e6, 4)} "
+                         "GNm/rad")
+    el = result.elastic
+    if el is not None:
+        lines += ["", "3D elastic stiffness at the tower base (harmonic model, operational "
+                  "moduli):",
+                  f"  K_R {_fmt(el.K_R, 1e6, 4)} GNm/rad, K_H {_fmt(el.K_H, 1e3, 4)} MN/m, "
+                  f"K_V {_fmt(el.K_V, 1e3, 4)} MN/m, {el.dofs} DOFs"]
+        kp0 = result.keypoints.get("initial_stiffness")
+        if kp0 is not None and kp0.extra.get("slice"):
+            lines.append(f"  initial stiffness of the slice pushover: "
+                         f"{_fmt(kp0.extra['slice'], 1e6, 4)} GNm/rad")
     m = result.model
-    lines += ["", f"Model: {m.get('support')} support, {m.get('element')}, {m.get('dofs')} DOFs, "
-              f"slice length L = {m.get('slice_length_m', 0):.2f} m, "
-              f"{len(m.get('rows', []))} pile rows",
-              f"Timings: {result.timings.get('total_s', 0):.1f} s total, "
-              f"{result.timings.get('increments', 0)} increments, "
-              f"{result.timings.get('iterations', 0)} Newton iterations"]
+    if m.get("geometry") == "harmonic":
+        lines += ["", f"Model: harmonic (elastic 3D, no pushover), {m.get('element')}, "
+                  f"{m.get('dofs')} DOFs",
+                  f"Timings: {result.timings.get('total_s', 0):.1f} s total"]
+    else:
+        lines += ["", f"Model: {m.get('support')} support, {m.get('element')}, "
+                  f"{m.get('dofs')} DOFs, slice length L = {m.get('slice_length_m', 0):.2f} m "
+                  f"({m.get('slice_length_rule', '')}), {len(m.get('rows', []))} pile rows",
+                  f"Timings: {result.timings.get('total_s', 0):.1f} s total, "
+                  f"{result.timings.get('increments', 0)} increments, "
+                  f"{result.timings.get('iterations', 0)} Newton iterations"]
     fig.text(0.08, 0.88, "\n".join(lines), family="monospace", fontsize=7.5, va="top",
              color=_INK)
     fig.text(0.08, 0.08, "\n".join(textwrap.wrap("Caution. " + CAUTION, 110)), fontsize=7.5,
