@@ -135,8 +135,9 @@ class Cap(_Model):
     nu: float = Field(0.2, ge=0.0, lt=0.5, description="concrete Poisson's ratio")
     gamma: float = Field(25.0, gt=0.0, le=30.0, description="concrete unit weight, kN/m3")
     contact: Literal["none", "bonded", "frictional"] = Field(
-        "none", description="cap underside on soil: none (no bearing credit), bonded, or "
-        "frictional (Coulomb, no tension: lift-off)")
+        "none", description="cap on soil: none (the cap touches no soil: underside and edge "
+        "free, the backfill above it only a weight on its top), bonded, or frictional "
+        "(underside: Coulomb, no tension: lift-off)")
 
     @model_validator(mode="after")
     def _check(self) -> Cap:

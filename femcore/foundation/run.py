@@ -258,7 +258,9 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
         ("censored" if status_kp is not None and status_kp.extra["censored"] else "ok")
     stages_s = sum(o.seconds for o in log.outcomes[:-1])
     pre = built.meta.get("build_s", 0.0) + built.meta.get("harmonic_s", 0.0)
+    cal = built.meta.get("slice_calibration") or {}
     timings = {"harmonic_s": built.meta.get("harmonic_s", 0.0),
+               "calibration_s": cal.get("seconds", 0.0),
                "build_s": built.meta.get("build_s", 0.0), "stages_s": stages_s,
                "pushover_s": final.seconds, "postprocess_s": t2 - t1,
                "total_s": t2 - t0 + pre,
@@ -281,9 +283,12 @@ def prepare(design: Design) -> tuple[BuiltModel, ElasticStiffness | None]:
     t_h = time.perf_counter()
     built = build_model(design)
     calibration = None
+    t_c = time.perf_counter()
     if design.analysis.slice_length == "calibrated" and elastic is not None:
         L, calibration = calibrated_slice_length(built, elastic.value)
+        t_c2 = time.perf_counter()
         built = build_model(design, slice_length=L)
+        calibration["seconds"] = t_c2 - t_c
     built.meta.update(build_s=time.perf_counter() - t_h, harmonic_s=t_h - t,
                       slice_calibration=calibration)
     return built, elastic
