@@ -73,8 +73,9 @@ def _summary_page(plt, result: Result):
                   f"Timings: {result.timings.get('total_s', 0):.1f} s total"]
     else:
         lines += ["", f"Model: {m.get('support')} support, {m.get('element')}, "
-                  f"{m.get('dofs')} DOFs, slice length L = {m.get('slice_length_m', 0):.2f} m "
-                  f"({m.get('slice_length_rule', '')}), {len(m.get('rows', []))} pile rows",
+                  f"{m.get('dofs')} DOFs, {len(m.get('rows', []))} pile rows",
+                  f"  slice length L = {m.get('slice_length_m', 0):.2f} m "
+                  f"({m.get('slice_length_rule', '')})",
                   f"Timings: {result.timings.get('total_s', 0):.1f} s total, "
                   f"{result.timings.get('increments', 0)} increments, "
                   f"{result.timings.get('iterations', 0)} Newton iterations"]
