@@ -302,3 +302,20 @@ def test_centre_pile_rules():
     data["piles"]["rings"].append({"radius": 0.0, "count": 2})
     msg = _problems(data)
     assert any(p.startswith("piles.rings.2: radius 0 is one vertical centre pile") for p in msg)
+
+
+def test_set_slice_length_equals_a_rebuild():
+    """Changing L of a built slice in place (pile blocks scaled by L_old / L) gives the same
+    elastic stiffness as building the model at that L (to round-off) and the same pile
+    resistances per metre."""
+    from femcore.foundation.build import set_slice_length
+
+    d = _coarse()
+    a = build_model(d)
+    set_slice_length(a, 23.0)
+    b = build_model(d, slice_length=23.0)
+    ka, kb = slice_stiffness(a, [23.0])[0], slice_stiffness(b, [23.0])[0]
+    assert ka[0] == pytest.approx(kb[0], rel=1e-10) and ka[1] == pytest.approx(kb[1], rel=1e-10)
+    for pa, pb in zip(a.rows, b.rows, strict=True):
+        assert np.allclose(pa.springs.f_max, pb.springs.f_max, rtol=1e-12)
+        assert np.allclose(pa.tip.f_max, pb.tip.f_max, rtol=1e-12)

@@ -52,7 +52,8 @@ from ..model import Model
 from .design import Design, SoilLayer
 from .layout import Ring, Row, default_slice_length, lump_rings
 
-__all__ = ["BuiltModel", "PileRow", "build_model", "slice_length_of", "domain_mesh",
+__all__ = ["BuiltModel", "PileRow", "build_model", "set_slice_length", "slice_length_of",
+           "domain_mesh",
            "mesh_width", "MESH_SIZES"]
 
 # element size near piles and cap (m) and far-field size (in cap diameters)
@@ -297,6 +298,21 @@ def backfill_load(model: Model, edges, profile: Profile) -> NDArray[np.float64]:
     f_e[..., 1] = -np.einsum("qa,eq,eq->ea", N, sv, ds)
     return assemble_vector(model.n_dofs, model.dofmap.cell_dofs(edges),
                            f_e.reshape(len(edges), -1))
+
+
+def set_slice_length(built: BuiltModel, L: float) -> None:
+    """Change the out-of-plane length of a built slice in place: every pile block carries
+    n_row / L of one pile's stiffness and resistance, so beams and springs scale by
+    L_old / L; soil, cap and loads per metre stay (loads divide by ``built.slice_length``
+    when the stages run). Equivalent to building the model at L, without the set-up."""
+    f = built.slice_length / L
+    for pr in built.rows:
+        b = pr.beam
+        b.EA, b.EI, b.k_local, b.K_e = b.EA * f, b.EI * f, b.k_local * f, b.K_e * f
+        for sp in (pr.springs, pr.tip):
+            sp.k, sp.f_min, sp.f_max = sp.k * f, sp.f_min * f, sp.f_max * f
+    built.slice_length = float(L)
+    built.meta["slice_length_m"] = float(L)
 
 
 def build_model(design: Design, slice_length: float | None = None) -> BuiltModel:

@@ -280,7 +280,7 @@ def harmonic_stiffness(design: Design, moduli: str = "operational", near_field: 
     model, dm = hf.model, hf.model.dofmap
     h, w, rot = (dm.ref_dof(hf.ref, c) for c in range(3))
     t1 = time.perf_counter()
-    K_V = float("nan")
+    K_V = None
     if vertical:
         cons = hf.constraints(0)
         cons.fix([w], 1.0)
@@ -312,6 +312,37 @@ def _pile_blocks(built: BuiltModel) -> set[int]:
     return ids
 
 
+class _SliceStiffness:
+    """K(L) of a built slice from one evaluation of its stress-free element tangents."""
+
+    def __init__(self, built: BuiltModel) -> None:
+        model = built.model
+        _, elements, _ = model.evaluate(np.zeros(model.n_dofs), model.initial_states(),
+                                        "elements")
+        self.built, self.Ke = built, elements()
+        piles = _pile_blocks(built)
+        self.is_pile = [id(b) in piles for b in model.blocks] + [False]
+
+    def __call__(self, L: float) -> tuple[float, float]:
+        built, model = self.built, self.built.model
+        scale = built.slice_length / L
+        Kl = [k * scale if p else k for k, p in zip(self.Ke, self.is_pile, strict=True)]
+        cmap = built.free_map
+        lu = factorize(cmap.reduced_from_elements(model.pattern, Kl))
+        dm = model.dofmap
+        U, TH = dm.ref_dof(built.ref, 0), dm.ref_dof(built.ref, 2)
+        F = np.zeros((2, model.n_dofs))
+        F[0, U], F[1, TH] = 1.0, 1.0
+        C = np.empty((2, 2))
+        for j in range(2):  # C[j] = (u, theta) at the reference point under a unit force / moment
+            u = cmap.expand(lu.solve(cmap.reduce_vector(F[j])))
+            C[j] = u[U], u[TH]
+        h = built.lever_height
+        k_moment = 1.0 / C[1, 1]
+        k_case = h / C[0, 1] if h > 0 else k_moment
+        return float(L * k_case), float(L * k_moment)
+
+
 def slice_stiffness(built: BuiltModel, lengths) -> list[tuple[float, float]]:
     """Elastic rotational stiffness (kNm/rad, 3D = per metre x L) of the plane-strain slice
     of ``built`` for other out-of-plane lengths L, under the load case and under a pure
@@ -320,33 +351,8 @@ def slice_stiffness(built: BuiltModel, lengths) -> list[tuple[float, float]]:
     The piles of a slice carry n_row / L of their stiffness, the soil and cap are per metre,
     so K(L) = L k(K_soil + (L_built / L) K_piles): one assembly, one factorisation per L.
     """
-    model = built.model
-    _, elements, _ = model.evaluate(np.zeros(model.n_dofs), model.initial_states(), "elements")
-    Ke = elements()
-    piles = _pile_blocks(built)
-    is_pile = [id(b) in piles for b in model.blocks] + [False]
-    dm = model.dofmap
-    U, V, TH = (dm.ref_dof(built.ref, c) for c in range(3))
-    cmap = built.free_map
-    h = built.lever_height
-    out = []
-    for L in lengths:
-        scale = built.slice_length / L
-        Kl = [k * scale if p else k for k, p in zip(Ke, is_pile, strict=True)]
-        Kr = cmap.reduced_from_elements(model.pattern, Kl)
-        lu = factorize(Kr)
-        F = np.zeros((2, model.n_dofs))
-        F[0, U], F[1, TH] = 1.0, 1.0
-        C = np.empty((2, 2))
-        for j in range(2):
-            u = cmap.expand(lu.solve(cmap.reduce_vector(F[j])))
-            C[j] = u[U], u[TH]
-        # C[j, :] = (u, theta) at the reference point under a unit force / moment there
-        c_tt, c_tf = C[1, 1], C[0, 1]  # theta per unit moment, theta per unit force
-        k_moment = 1.0 / c_tt
-        k_case = h / c_tf if h > 0 else k_moment
-        out.append((float(L * k_case), float(L * k_moment)))
-    return out
+    k = _SliceStiffness(built)
+    return [k(L) for L in lengths]
 
 
 def calibrated_slice_length(built: BuiltModel, target: float, rtol: float = 2e-3,
@@ -355,11 +361,12 @@ def calibrated_slice_length(built: BuiltModel, target: float, rtol: float = 2e-3
     the load case equals ``target`` (kNm/rad, the harmonic value). Secant iterations on
     log K(log L); K grows monotonically with L (more soil per pile)."""
     L0 = built.slice_length
-    Ls, Ks = [L0], [slice_stiffness(built, [L0])[0][0]]
+    k_of = _SliceStiffness(built)
+    Ls, Ks = [L0], [k_of(L0)[0]]
     L1 = L0 * target / Ks[0]
     for _ in range(max_iter):
         Ls.append(L1)
-        Ks.append(slice_stiffness(built, [L1])[0][0])
+        Ks.append(k_of(L1)[0])
         if abs(Ks[-1] / target - 1.0) < rtol:
             break
         p = np.log(Ks[-1] / Ks[-2]) / np.log(Ls[-1] / Ls[-2])

@@ -103,7 +103,8 @@ class ElasticStiffness:
     ``value``: M / theta under the load case (lever: H = M / h; otherwise a moment), kNm/rad;
     ``moment``: M / theta under a pure moment (H = 0); ``K_R`` rocking with the base held
     horizontally, ``K_H`` (kN/m), ``K_HR`` (kN/rad, H per unit rotation with the base held),
-    ``K_V`` (kN/m). ``moduli``: "operational" (the layers' E) or "small_strain" (G0).
+    ``K_V`` (kN/m; None when the n = 0 solve was skipped, as in plane-strain runs).
+    ``moduli``: "operational" (the layers' E) or "small_strain" (G0).
     """
 
     value: float
@@ -111,7 +112,7 @@ class ElasticStiffness:
     K_R: float
     K_H: float
     K_HR: float
-    K_V: float
+    K_V: float | None
     moduli: str
     lever_arm: float | None
     dofs: int

@@ -18,7 +18,7 @@ import numpy as np
 
 from .. import __version__
 from ..stepping import StepRecord, StepResult, StepSettings
-from .build import BuiltModel, build_model
+from .build import BuiltModel, build_model, set_slice_length
 from .design import SCHEMA_VERSION, Design, design_from_dict
 from .dynamic import dynamic_stiffness
 from .elastic3d import calibrated_slice_length, check_harmonic_layout, harmonic_stiffness
@@ -246,7 +246,7 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
         status_kp = kp.get("ultimate")
         if elastic is None and design.analysis.geometry == "plane_strain" \
                 and not check_harmonic_layout(design):
-            elastic = harmonic_stiffness(design)
+            elastic = harmonic_stiffness(design, vertical=False)
         if elastic is not None:
             _initial_from_harmonic(kp, elastic)
         if dynamic:
@@ -279,16 +279,15 @@ def prepare(design: Design) -> tuple[BuiltModel, ElasticStiffness | None]:
     t = time.perf_counter()
     elastic = None
     if design.analysis.geometry == "plane_strain" and not check_harmonic_layout(design):
-        elastic = harmonic_stiffness(design)
+        elastic = harmonic_stiffness(design, vertical=False)
     t_h = time.perf_counter()
     built = build_model(design)
     calibration = None
     t_c = time.perf_counter()
     if design.analysis.slice_length == "calibrated" and elastic is not None:
         L, calibration = calibrated_slice_length(built, elastic.value)
-        t_c2 = time.perf_counter()
-        built = build_model(design, slice_length=L)
-        calibration["seconds"] = t_c2 - t_c
+        set_slice_length(built, L)
+        calibration["seconds"] = time.perf_counter() - t_c
     built.meta.update(build_s=time.perf_counter() - t_h, harmonic_s=t_h - t,
                       slice_calibration=calibration)
     return built, elastic
