@@ -59,14 +59,17 @@ def harmonic_pile_ring(n_piles: int = 4, ring_radius: float = 3.0, diameter: flo
                        length: float = 10.0, G: float = 1.0e4, nu: float = 0.3,
                        Ep_over_G: float = 1000.0, near_field: bool = True,
                        element: str = "T15", h_near: float | None = None,
-                       domain_radius: float | None = None, depth: float | None = None) -> dict:
-    """K of a rigid cap on a ring of N bonded circular piles (harmonic n = 0 and 1)."""
+                       domain_radius: float | None = None, depth: float | None = None,
+                       rake: float = 0.0) -> dict:
+    """K of a rigid cap on a ring of N bonded circular piles (harmonic n = 0 and 1);
+    ``rake`` outward, horizontal per vertical (the pile length is along its axis)."""
     t0 = time.perf_counter()
     d, Lp, Rr = diameter, length, ring_radius
     width = Rr + 4 * Lp if domain_radius is None else domain_radius
     depth = 4 * Lp if depth is None else depth
     h = d / 2 if h_near is None else h_near
-    mesh = layered_domain(width, depth, [], x_min=0.0, lines=[((Rr, 0.0), (Rr, -Lp))],
+    Lv = Lp / np.sqrt(1 + rake**2)
+    mesh = layered_domain(width, depth, [], x_min=0.0, lines=[((Rr, 0.0), (Rr + rake * Lv, -Lv))],
                           h=0.8 * Lp, h_near=h, refine_radius=4 * h + 2 * d, element=element)
     model = HarmonicModel(mesh, 1)
     model.add_block("soil", None, E=2 * G * (1 + nu), nu=nu)
@@ -80,9 +83,10 @@ def harmonic_pile_ring(n_piles: int = 4, ring_radius: float = 3.0, diameter: flo
     trib[:-1] += seg / 2
     trib[1:] += seg / 2
     ka, kl = near_field_springs(np.full(len(xy), G), np.full(len(xy), nu),
-                                2 * np.pi * Rr / n_piles, d)
-    if not near_field or not np.all(np.isfinite(ka)):  # bonded: very stiff ties
-        ka = kl = np.full(len(xy), 1e4 * G)
+                                2 * np.pi * xy[:, 0] / n_piles, d)
+    stiff = np.full(len(xy), 1e4 * G)  # bonded where no correction applies: very stiff ties
+    ka, kl = (stiff, stiff) if not near_field else (np.where(np.isfinite(ka), ka, stiff),
+                                                   np.where(np.isfinite(kl), kl, stiff))
     soil = np.stack([3 * nodes, 3 * nodes + 1, 3 * nodes + 2], axis=1)
     model.add_element_block(RingSpringBlock("ties", line, line.trans, soil,
                                             np.stack([ka * trib, kl * trib, kl * trib], 1)))

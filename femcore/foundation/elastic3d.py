@@ -96,14 +96,18 @@ def small_strain_design(design: Design) -> Design:
         "soil": design.soil.model_copy(update={"layers": new_layers}), "cap": cap})
 
 
-def near_field_springs(G, nu, spacing: float, width: float):
+def near_field_springs(G, nu, spacing, width: float):
     """Near-field series springs per unit pile length (kN/m per m) of a ring of discrete
-    piles, axial and lateral; inf where ``spacing <= pi * width`` (no correction)."""
+    piles, axial and lateral; inf where ``spacing <= pi * width`` (no correction).
+    ``spacing`` may vary along the pile (a raked ring widens with depth)."""
     G, nu = np.asarray(G, dtype=np.float64), np.asarray(nu, dtype=np.float64)
-    lnr = np.log(spacing / (np.pi * width)) if spacing > 0 else 0.0
-    if lnr <= 0.0:
-        return np.full_like(G, np.inf), np.full_like(G, np.inf)
-    return 2 * np.pi * G / lnr, 8 * np.pi * G * (1 - nu) / ((3 - 4 * nu) * lnr)
+    s = np.broadcast_to(np.asarray(spacing, dtype=np.float64), G.shape)
+    lnr = np.log(np.maximum(s, 1e-300) / (np.pi * width))
+    ok = lnr > 0.0
+    safe = np.where(ok, lnr, 1.0)
+    ka = np.where(ok, 2 * np.pi * G / safe, np.inf)
+    kl = np.where(ok, 8 * np.pi * G * (1 - nu) / ((3 - 4 * nu) * safe), np.inf)
+    return ka, kl
 
 
 def _series(*ks):
@@ -219,9 +223,10 @@ def build_harmonic(design: Design, near_field: bool = True,
         ks = piles.slip_stiffening if slip else np.inf
         k_ax = shaft_stiffness(s["G"], s["nu"], r0, piles.length) * ks
         k_lat = lateral_stiffness(s["G"]) * ks
-        spacing = 2 * np.pi * ring.radius / ring.count
-        if near_field:
-            nf_ax, nf_lat = near_field_springs(s["G"], s["nu"], spacing, piles.width)
+        spacing = 2 * np.pi * ring.radius / ring.count  # at the head
+        if near_field:  # local spacing: a raked ring widens with depth
+            nf_ax, nf_lat = near_field_springs(s["G"], s["nu"], 2 * np.pi * xy[:, 0] / ring.count,
+                                               piles.width)
             k_ax, k_lat = _series(k_ax, nf_ax), _series(k_lat, nf_lat)
         if not np.all(np.isfinite(k_ax)):  # neither slip nor near field: stiff ties
             k_ax = np.full_like(k_ax, 1e4) * s["G"]
