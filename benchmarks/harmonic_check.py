@@ -24,7 +24,7 @@ from pathlib import Path
 import numpy as np
 
 from femcore.foundation.elastic3d import near_field_springs
-from femcore.harmonic import HarmonicModel, _cases, rigid_stiffness
+from femcore.harmonic import HarmonicModel, prescribed_cases, rigid_stiffness
 from femcore.harmonic_rings import RingSpringBlock, add_ring, ring_support, tie_head_rigid
 from meshing import layered_domain
 
@@ -109,7 +109,7 @@ def harmonic_pile_ring(n_piles: int = 4, ring_radius: float = 3.0, diameter: flo
     cons = constraints(1)
     cons.fix([H, TH], 0.0)
     cmap = cons.build()
-    R1 = model.solve(1, cmap, prescribed=_cases(cmap, [{H: 1.0}, {TH: 1.0}])).reactions
+    R1 = model.solve(1, cmap, prescribed=prescribed_cases(cmap, [{H: 1.0}, {TH: 1.0}])).reactions
     return {"K_V": float(K_V), "K_H": float(cmap.generalized_at(R1[0], H)),
             "K_R": float(cmap.generalized_at(R1[1], TH)),
             "K_HR": float(cmap.generalized_at(R1[1], H)), "n_dofs": int(model.n_dofs),

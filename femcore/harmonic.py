@@ -129,6 +129,7 @@ __all__ = [
     "HarmonicSolution",
     "RigidStiffness",
     "rigid_stiffness",
+    "prescribed_cases",
     "axis_nodes",
     "check_axis_conditions",
     "trig_factors",
@@ -1041,7 +1042,7 @@ def rigid_stiffness(model: HarmonicModel, nodes, supports, contact: str = "bonde
     cons.fix([w, rot] if torsion else [w], 0.0)
     cmap = cons.build()
     cases = [{w: 1.0}, {rot: 1.0}] if torsion else [{w: 1.0}]
-    sol = model.solve(0, cmap, prescribed=_cases(cmap, cases))
+    sol = model.solve(0, cmap, prescribed=prescribed_cases(cmap, cases))
     R0 = np.atleast_2d(sol.reactions)
     K_V = cmap.generalized_at(R0[0], w)
     K_T = cmap.generalized_at(R0[1], rot) if torsion else float("nan")
@@ -1052,7 +1053,7 @@ def rigid_stiffness(model: HarmonicModel, nodes, supports, contact: str = "bonde
     if contact == "bonded":
         cons.fix([h, rot], 0.0)
         cmap = cons.build()
-        sol = model.solve(1, cmap, prescribed=_cases(cmap, [{h: 1.0}, {rot: 1.0}]))
+        sol = model.solve(1, cmap, prescribed=prescribed_cases(cmap, [{h: 1.0}, {rot: 1.0}]))
         R1 = sol.reactions
         K_H, K_RH = cmap.generalized_at(R1[0], h), cmap.generalized_at(R1[0], rot)
         K_HR, K_R = cmap.generalized_at(R1[1], h), cmap.generalized_at(R1[1], rot)
@@ -1065,7 +1066,8 @@ def rigid_stiffness(model: HarmonicModel, nodes, supports, contact: str = "bonde
     return RigidStiffness(K_V, K_H, K_R, K_HR, K_RH, K_T)
 
 
-def _cases(cmap: ConstraintMap, cases: Sequence[dict[int, float]]) -> NDArray[np.float64]:
+def prescribed_cases(cmap: ConstraintMap,
+                     cases: Sequence[dict[int, float]]) -> NDArray[np.float64]:
     """Prescribed-value vectors ``(m, n_fixed)``: zeros except the given full DOFs."""
     P = np.zeros((len(cases), cmap.fixed.size))  # (m, n_fixed)
     for j, case in enumerate(cases):

@@ -38,7 +38,7 @@ from numpy.typing import NDArray
 from materials import LinearElastic
 from meshing import regions
 
-from ..harmonic import HarmonicConstraints, HarmonicError, HarmonicModel
+from ..harmonic import HarmonicConstraints, HarmonicError, HarmonicModel, prescribed_cases
 from ..harmonic_rings import RingLine, RingSpringBlock, add_ring, ring_support, tie_head_to_solid
 from ..linsolve import factorize
 from .build import (
@@ -277,8 +277,6 @@ def harmonic_stiffness(design: Design, moduli: str = "operational", near_field: 
     """K_V (n = 0), K_H, K_R, K_HR (n = 1) at the tower base and the rotational stiffness
     under the load case, from the harmonic model. ``moduli``: "operational" (the layers' E)
     or "small_strain" (G0)."""
-    from ..harmonic import _cases
-
     t0 = time.perf_counter()
     d = small_strain_design(design) if moduli == "small_strain" else design
     hf = build_harmonic(d, near_field=near_field, slip=slip)
@@ -295,7 +293,7 @@ def harmonic_stiffness(design: Design, moduli: str = "operational", near_field: 
     cons = hf.constraints(1)
     cons.fix([h, rot], 0.0)
     cmap = cons.build()
-    sol = model.solve(1, cmap, prescribed=_cases(cmap, [{h: 1.0}, {rot: 1.0}]))
+    sol = model.solve(1, cmap, prescribed=prescribed_cases(cmap, [{h: 1.0}, {rot: 1.0}]))
     R = sol.reactions
     K_H, K_HR = cmap.generalized_at(R[0], h), cmap.generalized_at(R[1], h)
     K_R = cmap.generalized_at(R[1], rot)
