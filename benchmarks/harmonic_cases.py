@@ -110,6 +110,23 @@ def _ring_vs_interaction(quick: bool):
     return s["K_R"] / est["K_R"], {"n_dofs": s["n_dofs"]}
 
 
+def _raked(key: str, rake: float = 1 / 6):
+    """Harmonic raked ring over the stored 3D solution of the same raked group."""
+    def run(quick: bool):
+        import json
+        from pathlib import Path
+
+        from .harmonic_check import harmonic_pile_ring
+
+        ref = json.loads((Path(__file__).with_name("data") / "raked3d_reference.json")
+                         .read_text())
+        case = next(c for c in ref["cases"] if abs(c["rake"] - rake) < 1e-9
+                    and c["h_pile"] == 0.7)
+        h = harmonic_pile_ring(4, RR, D, LP, G, NU, rake=rake)
+        return h[key] / case[key], {"harmonic_dofs": h["n_dofs"], "rake": rake}
+    return run
+
+
 def _cap_size(model: str):
     """K under a 30 m cap over K under a 20 m cap, 16 piles on a 9 m ring, no contact."""
     def run(quick: bool):
@@ -154,6 +171,10 @@ CASES: dict[str, Case] = {c.name: c for c in [
     Case("harmonic_ring4_K_V_vs_3d", 1.0, (-0.05, 0.05), SRC_3D, _ring_vs_3d("K_V")),
     Case("harmonic_ring4_K_H_vs_3d", 1.0, (-0.05, 0.05), SRC_3D, _ring_vs_3d("K_H")),
     Case("harmonic_ring4_K_R_vs_3d", 1.0, (-0.05, 0.05), SRC_3D, _ring_vs_3d("K_R")),
+    Case("harmonic_raked_ring4_K_R_vs_3d", 1.0, (-0.05, 0.05),
+         "stored 3D FE of the raked group (benchmarks/raked3d.py)", _raked("K_R")),
+    Case("harmonic_raked_ring4_K_H_vs_3d", 1.0, (-0.05, 0.05),
+         "stored 3D FE of the raked group (benchmarks/raked3d.py)", _raked("K_H")),
     Case("single_pile_3d_K_V_vs_randolph_wroth", 1.0, (-0.05, 0.05),
          "Randolph & Wroth 1978 (axial head stiffness)", _single_axial),
     Case("single_pile_3d_K_H_vs_randolph_1981", 1.0, (-0.15, 0.15),

@@ -533,7 +533,7 @@ def pile_group_stiffness(n_piles: int = 4, ring_radius: float = 3.0, diameter: f
                          Ep_over_G: float = 1000.0, nu_pile: float = 0.2, offset: float = 0.0,
                          domain_radius: float | None = None, depth: float | None = None,
                          h_pile: float | None = None, h_far: float | None = None,
-                         solver: str = "splu") -> dict:
+                         solver: str = "splu", rake: float = 0.0) -> dict:
     """Rigid cap on N solid elastic piles (circular, diameter d) in homogeneous soil (3D, P2).
 
     Piles at theta_k = offset + 2 pi k / N on a ring of radius Rr, heads flush with the
@@ -566,6 +566,10 @@ def pile_group_stiffness(n_piles: int = 4, ring_radius: float = 3.0, diameter: f
     solver : {"splu", "cg", "spsolve", "amg"}
         Linear solver; SuperLU is the fastest measured here up to ~50k DOFs (Jacobi-CG
         suffers from the pile/soil stiffness contrast).
+    rake : float, default 0
+        Outward rake of every pile, horizontal per vertical, in its radial plane; the
+        length Lp is measured along the axis (tips at depth Lp / sqrt(1 + rake^2)) and the
+        head faces stay in z = 0 (see :func:`meshing.solid3d.pile_group`).
 
     Returns
     -------
@@ -573,7 +577,7 @@ def pile_group_stiffness(n_piles: int = 4, ring_radius: float = 3.0, diameter: f
         ``K_V``, ``K_H`` (kN/m), ``K_R`` (kNm/rad), ``K_HR`` (kN/rad: H per unit theta =
         M per unit U; negative: a push in +x with the cap held level needs a moment against
         positive theta), ``K`` 3x3 list in (U, W, theta), ``centres`` (N, 2) list (m),
-        ``n_dofs``, ``seconds``.
+        ``n_dofs``, ``seconds``; with ``rake`` != 0 also ``rake``.
     """
     from meshing.solid3d import pile_group
 
@@ -583,7 +587,7 @@ def pile_group_stiffness(n_piles: int = 4, ring_radius: float = 3.0, diameter: f
                        ring_radius + 4.0 * Lp if domain_radius is None else domain_radius,
                        4.0 * Lp if depth is None else depth,
                        0.7 * diameter if h_pile is None else h_pile,
-                       0.8 * Lp if h_far is None else h_far, offset)
+                       0.8 * Lp if h_far is None else h_far, offset, rake=rake)
     t1 = time.perf_counter()
     K, dofs = elasticity_matrix(solid, {"soil": (2 * G * (1 + nu), nu),
                                         "piles": (Ep_over_G * G, nu_pile)})
@@ -595,11 +599,14 @@ def pile_group_stiffness(n_piles: int = 4, ring_radius: float = 3.0, diameter: f
     Q, info = solve_rigid_ties(K, np.setdiff1d(_support_dofs(solid, dofs), tied), tied, phi,
                                solver, near)
     Q = 2.0 * Q
-    return {"K_V": float(Q[1, 1]), "K_H": float(Q[0, 0]), "K_R": float(Q[2, 2]),
-            "K_HR": float(0.5 * (Q[0, 2] + Q[2, 0])), "K": Q.tolist(),
-            "centres": solid.info["centres"].tolist(), "n_dofs": info["n_dofs"],
-            "seconds": {"mesh": t1 - t0, "assembly": t2 - t1, "solve": info["solve_seconds"],
-                        "total": time.perf_counter() - t0}}
+    out = {"K_V": float(Q[1, 1]), "K_H": float(Q[0, 0]), "K_R": float(Q[2, 2]),
+           "K_HR": float(0.5 * (Q[0, 2] + Q[2, 0])), "K": Q.tolist(),
+           "centres": solid.info["centres"].tolist(), "n_dofs": info["n_dofs"],
+           "seconds": {"mesh": t1 - t0, "assembly": t2 - t1, "solve": info["solve_seconds"],
+                       "total": time.perf_counter() - t0}}
+    if rake != 0.0:
+        out["rake"] = float(rake)
+    return out
 
 
 def single_pile_stiffness(diameter: float = 1.0, length: float = 10.0, **kw) -> dict:

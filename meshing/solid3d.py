@@ -177,6 +177,85 @@ def _classify_outer(domain_radius: float, depth: float, tol: float) -> dict[str,
     return out
 
 
+def _raked_axes(theta: NDArray, centres: NDArray, on_plane: NDArray, length: float,
+                rake: float) -> tuple[NDArray, NDArray]:
+    """Unit axis directions (N, 3), pointing down, and tip centres (N, 3) of the piles.
+
+    d_k = (s cos theta_k, s sin theta_k, -1) / sqrt(1 + s^2) with the rake s (outward
+    positive); piles centred on y = 0 get d_y = 0 exactly (their axis lies in that plane).
+    """
+    n = np.hypot(1.0, rake)
+    axes = np.column_stack([rake * np.cos(theta), rake * np.sin(theta),
+                            -np.ones_like(theta)]) / n
+    axes[on_plane, 1] = 0.0
+    heads = np.column_stack([centres, np.zeros(len(centres))])
+    return axes, heads + length * axes
+
+
+def _segment_distance(p0: NDArray, p1: NDArray, q0: NDArray, q1: NDArray) -> float:
+    """Smallest distance between the segments p0-p1 and q0-q1 (3D, non-degenerate)."""
+    u, v, w = p1 - p0, q1 - q0, p0 - q0
+    a, b, c, d, e = u @ u, u @ v, v @ v, u @ w, v @ w
+    den = a * c - b * b
+    s = np.clip((b * e - c * d) / den, 0.0, 1.0) if den > 1e-12 * a * c else 0.0
+    t = (b * s + e) / c
+    if t < 0.0 or t > 1.0:  # clamp t, then recompute s for that end
+        t = min(max(t, 0.0), 1.0)
+        s = np.clip((b * t - d) / a, 0.0, 1.0)
+    return float(np.linalg.norm(w + s * u - t * v))
+
+
+def _check_raked(centres: NDArray, tips: NDArray, on_plane: NDArray, r0: float,
+                 ring_radius: float, domain_radius: float, tol: float) -> None:
+    """Geometric checks of raked piles (lateral boundary, overlap, symmetry plane).
+
+    Every point of a pile lies within r0 of its axis segment (head centre to tip centre),
+    so axis segments more than 2 r0 apart guarantee piles that do not touch.
+    """
+    if ring_radius == 0.0:
+        raise ValueError("a pile on the ring centre (ring_radius = 0) cannot be raked")
+    heads = np.column_stack([centres, np.zeros(len(centres))])
+    if np.any(np.hypot(*tips[:, :2].T) + r0 >= domain_radius):
+        raise ValueError("raked piles reach the lateral boundary; increase domain_radius")
+    n = len(centres)
+    for i in range(n):
+        for j in range(i + 1, n):
+            if _segment_distance(heads[i], tips[i], heads[j], tips[j]) <= 2.0 * r0:
+                raise ValueError("raked piles overlap; increase ring_radius or reduce rake")
+    yh, yt = centres[:, 1], tips[:, 1]
+    off = ~on_plane
+    if np.any(off & ((yh * yt <= 0.0) | (np.minimum(abs(yh), abs(yt)) <= r0 + tol))):
+        raise ValueError("a raked pile crosses the symmetry plane y = 0 off-centre")
+
+
+def _raked_pile(centre: NDArray, axis: NDArray, on_plane: bool, r0: float, length: float,
+                diameter: float, domain_radius: float, depth: float) -> int:
+    """OCC volume of one raked pile: the part below z = 0 (and in y >= 0) of a cylinder.
+
+    The cylinder of radius r0 runs along ``axis`` (unit, pointing down) from a point
+    d (1 + |slope|) above the ground (so that its tilted top face, whose rim spans
+    +-r0 |slope| / sqrt(1 + slope^2) in z, clears the plane z = 0) to the tip at ``length``
+    along the axis below the head centre (x, y, 0). It is
+    intersected with the box -R <= x <= R, 0 <= y <= R, -depth <= z <= 0 (R the domain
+    radius): the cut by z = 0 makes the head face, the cut by y = 0 halves a pile centred
+    on the symmetry plane (off-plane piles lie in y > 0 entirely and are not cut).
+    """
+    occ = gmsh.model.occ
+    x, y = centre
+    head = np.array([x, 0.0 if on_plane else y, 0.0])
+    above = diameter * np.hypot(axis[0], axis[1]) / abs(axis[2]) + diameter
+    t0 = above / abs(axis[2])  # axis length from the start point down to the head centre
+    start = head - t0 * axis
+    cyl = occ.addCylinder(*start, *((t0 + length) * axis), r0)
+    box = occ.addBox(-domain_radius, 0.0, -depth, 2.0 * domain_radius, domain_radius, depth)
+    out, _ = occ.intersect([(3, cyl)], [(3, box)], removeObject=True, removeTool=True)
+    vols = [t for d, t in out if d == 3]
+    if len(vols) != 1:
+        raise RuntimeError(f"raked pile at ({x:g}, {y:g}): intersection gave {len(vols)} "
+                           "volumes, expected 1")
+    return vols[0]
+
+
 def footing_layer(radius: float, depth: float, domain_radius: float, h_near: float,
                   h_far: float, refine_distance: float | None = None) -> SolidMesh:
     """Half cylinder y >= 0 of radius ``domain_radius`` and depth ``depth`` (z in [-depth, 0])
@@ -236,8 +315,11 @@ def footing_layer(radius: float, depth: float, domain_radius: float, h_near: flo
 
 def pile_group(n_piles: int, ring_radius: float, diameter: float, length: float,
                domain_radius: float, depth: float, h_pile: float, h_far: float,
-               offset: float = 0.0, refine_distance: float | None = None) -> SolidMesh:
+               offset: float = 0.0, refine_distance: float | None = None,
+               rake: float = 0.0) -> SolidMesh:
     """Half cylinder y >= 0 of soil with N vertical circular piles, heads at z = 0.
+
+    With ``rake`` != 0 the piles are raked in their radial planes (see ``rake`` below).
 
     The piles (circular cross-section of diameter d) stand at (Rr cos theta_k, Rr sin
     theta_k), theta_k = offset + 2 pi k / N (:func:`ring_angles`); ``n_piles = 1`` with
@@ -265,6 +347,17 @@ def pile_group(n_piles: int, ring_radius: float, diameter: float, length: float,
     refine_distance : float, optional
         Distance (m) from the pile surfaces over which the size grows to ``h_far``;
         default 3 ``h_far``.
+    rake : float, default 0
+        Rake s of every pile, horizontal per vertical, positive outward (away from the ring
+        centre along theta_k). Pile k keeps its head centre (Rr cos theta_k, Rr sin theta_k,
+        0) and its length Lp along the axis d_k = (s cos theta_k, s sin theta_k, -1) /
+        sqrt(1 + s^2), so its tip centre lies at depth Lp / sqrt(1 + s^2); the cross-section
+        is circular perpendicular to the axis, the head face is the (elliptic) section of
+        the cylinder by the ground plane z = 0 and the tip face is perpendicular to the
+        axis. 0 gives the vertical piles (the same construction as before); a single pile
+        on the axis (``ring_radius = 0``) must have rake 0; |rake| <= 1 (meshes checked
+        for N = 2-12, rakes -1/8 to 1, h_pile 0.5-1.0 d). Negative (inward) rakes are
+        accepted if the piles do not touch.
 
     Returns
     -------
@@ -273,11 +366,15 @@ def pile_group(n_piles: int, ring_radius: float, diameter: float, length: float,
         head faces), ``head_<k>``, ``ground`` (z = 0 outside the piles), ``base``,
         ``lateral``, ``symmetry``. ``info["centres"]`` (N, 2) holds all N axis positions (m),
         ``info["meshed"]`` the indices k of the meshed piles and ``info["weight"]`` their
-        share in the half model (0.5 when cut by y = 0, else 1).
+        share in the half model (0.5 when cut by y = 0, else 1); ``info["rake"]``,
+        ``info["axes"]`` (N, 3) unit axis directions (pointing down) and ``info["tips"]``
+        (N, 3) tip centres (m).
     """
     r0 = 0.5 * diameter
     if depth <= length:
         raise ValueError(f"depth {depth} must exceed the pile length {length}")
+    if not abs(rake) <= 1.0:  # also rejects nan
+        raise ValueError(f"rake {rake!r} outside [-1, 1] (45 degrees), the range meshed")
     theta = ring_angles(n_piles, offset)
     centres = ring_radius * np.column_stack([np.cos(theta), np.sin(theta)])  # (N, 2)
     if np.any(np.hypot(*centres.T) + r0 >= domain_radius):
@@ -292,16 +389,25 @@ def pile_group(n_piles: int, ring_radius: float, diameter: float, length: float,
         raise ValueError("a pile crosses the symmetry plane y = 0 off-centre")
     meshed = np.flatnonzero(on_plane | (centres[:, 1] > 0))
     weight = np.where(on_plane[meshed], 0.5, 1.0)
+    axes, tips = _raked_axes(theta, centres, on_plane, length, rake)
+    if rake != 0.0:
+        _check_raked(centres, tips, on_plane, r0, ring_radius, domain_radius, tol)
     with gmsh_session("pile_group"):
         occ = gmsh.model.occ
         body = occ.addCylinder(0, 0, -depth, 0, 0, depth, domain_radius, angle=np.pi)
         piles = []
-        for k in meshed:
-            x, y = centres[k]
-            if on_plane[k]:  # half cylinder y >= 0 about the axis
-                piles.append(occ.addCylinder(x, y, -length, 0, 0, length, r0, angle=np.pi))
-            else:
-                piles.append(occ.addCylinder(x, y, -length, 0, 0, length, r0))
+        if rake == 0.0:
+            for k in meshed:
+                x, y = centres[k]
+                if on_plane[k]:  # half cylinder y >= 0 about the axis
+                    piles.append(occ.addCylinder(x, y, -length, 0, 0, length, r0,
+                                                 angle=np.pi))
+                else:
+                    piles.append(occ.addCylinder(x, y, -length, 0, 0, length, r0))
+        else:
+            for k in meshed:
+                piles.append(_raked_pile(centres[k], axes[k], on_plane[k], r0, length,
+                                         diameter, domain_radius, depth))
         _, out_map = occ.fragment([(3, body)], [(3, p) for p in piles])
         occ.synchronize()
         pile_vols = [[t for d, t in out_map[1 + i] if d == 3] for i in range(len(piles))]
@@ -315,6 +421,13 @@ def pile_group(n_piles: int, ring_radius: float, diameter: float, length: float,
             heads_by_pile.append(heads)
             pile_surfs += [s for s in bnd if s not in groups["symmetry"]]
         all_heads = [s for h in heads_by_pile for s in h]
+        if rake != 0.0:
+            # Frontal-Delaunay can leave the curved face of a tilted half pile with triangles
+            # spanning its two straight edges (flat, on top of the symmetry face) when
+            # h_pile ~ d; the adaptive 2D algorithm meshes these faces reliably.
+            for surf in sorted(set(pile_surfs) - set(all_heads)):
+                if gmsh.model.getType(2, surf) == "Cylinder":
+                    gmsh.model.mesh.setAlgorithm(2, surf, 1)
         ground = [s for s in groups["top"] if s not in all_heads]
         gmsh.model.addPhysicalGroup(3, soil, name="soil")
         gmsh.model.addPhysicalGroup(3, sorted(pile_set), name="piles")
@@ -332,4 +445,4 @@ def pile_group(n_piles: int, ring_radius: float, diameter: float, length: float,
                          "length": length, "domain_radius": domain_radius, "depth": depth,
                          "h_pile": h_pile, "h_far": h_far, "offset": offset,
                          "theta": theta, "centres": centres, "meshed": meshed,
-                         "weight": weight})
+                         "weight": weight, "rake": rake, "axes": axes, "tips": tips})
