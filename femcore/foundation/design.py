@@ -76,7 +76,7 @@ class SoilLayer(_Model):
     """A horizontal soil layer (top to bottom in the file)."""
 
     name: str = Field(description="layer name (free text)")
-    thickness: Pos = Field(description="layer thickness, m")
+    thickness: float = Field(gt=0, le=1000.0, description="layer thickness, m (at most 1000)")
     model: Literal["tresca", "mohr_coulomb", "elastic"] = Field(
         description="tresca (undrained, total stress), mohr_coulomb (drained, effective "
         "stress) or elastic")

@@ -103,7 +103,7 @@ class Result:
 def _slice_rule(built: BuiltModel) -> str:
     L = built.design.analysis.slice_length
     if built.design.analysis.support == "springs":
-        return "no effect (springs support)"
+        return "no effect with springs support"
     if L == "calibrated" and "slice_calibration" not in built.meta:
         return "16 R / (3 pi) as built; calibrated when the design is run"
     if L == "calibrated":

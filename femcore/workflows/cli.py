@@ -153,11 +153,13 @@ def _print_summary(result, out: Path, t_total: float) -> None:
         print(f"timings       {t_total:.1f} s total (harmonic solves "
               f"{tm.get('harmonic_s', 0):.1f} s, {result.model.get('dofs')} DOFs)")
     else:
-        print(f"timings       {t_total:.1f} s total (harmonic 3D solve "
-              f"{tm.get('harmonic_s', 0):.1f} s, slice calibration "
-              f"{tm.get('calibration_s', 0):.1f} s, pushover {tm.get('pushover_s', 0):.1f} s, "
-              f"{tm.get('increments', 0)} increments, {tm.get('iterations', 0)} Newton "
-              "iterations)")
+        parts = [f"{label} {tm[key]:.1f} s" for key, label in
+                 (("harmonic_s", "harmonic 3D solve"), ("calibration_s", "slice calibration"))
+                 if tm.get(key)]
+        parts += [f"pushover {tm.get('pushover_s', 0):.1f} s",
+                  f"{tm.get('increments', 0)} increments",
+                  f"{tm.get('iterations', 0)} Newton iterations"]
+        print(f"timings       {t_total:.1f} s total ({', '.join(parts)})")
     print(f"results       {out}/")
     print()
     print(CAUTION)
