@@ -155,7 +155,7 @@ def _print_summary(result, out: Path, t_total: float) -> None:
     else:
         parts = [f"{label} {tm[key]:.1f} s" for key, label in
                  (("harmonic_s", "harmonic 3D solve"), ("calibration_s", "slice calibration"))
-                 if tm.get(key)]
+                 if tm.get(key, 0.0) >= 0.05]
         parts += [f"pushover {tm.get('pushover_s', 0):.1f} s",
                   f"{tm.get('increments', 0)} increments",
                   f"{tm.get('iterations', 0)} Newton iterations"]
