@@ -29,13 +29,11 @@ import argparse
 import json
 import os
 import platform
-import subprocess
-import sys
-import tempfile
-import time
 from pathlib import Path
 
 import numpy as np
+
+from benchmarks.isolated import add_arguments, child_main, run_in_child
 
 __all__ = ["PARAMS", "CASES", "VERTICAL", "run_case", "checks", "main"]
 
@@ -102,53 +100,15 @@ def run_case(rake: float, h_pile: float) -> dict:
     return row
 
 
-def _child(spec: str, out: str) -> int:
-    """Child-process entry: run the case ``rake,h_pile`` and write its row to ``out``."""
+def _run_spec(spec: str) -> dict:
     rake, h = (float(v) for v in spec.split(","))
-    try:
-        row = run_case(rake, h)
-    except MemoryError:
-        row = {"skipped": "out of memory (MemoryError)"}
-    with open(out, "w") as fh:
-        json.dump(row, fh)
-    return 0
-
-
-def _address_limit(gb: float):
-    def apply():
-        import resource
-
-        n = int(gb * 2**30)
-        resource.setrlimit(resource.RLIMIT_AS, (n, n))
-    return apply
+    return run_case(rake, h)
 
 
 def _run_child(rake: float, h: float, timeout: float, mem_gb: float) -> dict:
     """Run one case in a fresh interpreter under the time and memory limits."""
-    fd, out = tempfile.mkstemp(suffix=".json")
-    os.close(fd)
-    cmd = [sys.executable, "-m", "benchmarks.raked3d", "--child", f"{rake!r},{h!r}",
-           "--child-out", out]
-    t0 = time.perf_counter()
-    try:
-        proc = subprocess.run(cmd, timeout=timeout, capture_output=True, text=True,
-                              preexec_fn=_address_limit(mem_gb) if mem_gb > 0 else None)
-        try:
-            with open(out) as fh:
-                row = json.load(fh)
-        except (OSError, json.JSONDecodeError):
-            tail = (proc.stderr or "").strip().splitlines()[-3:]
-            row = {"skipped": f"child failed (exit code {proc.returncode})"
-                   + (": " + " | ".join(tail) if tail else "")}
-    except subprocess.TimeoutExpired:
-        row = {"skipped": f"exceeded the time limit of {timeout:g} s; dropped"}
-    finally:
-        if os.path.exists(out):
-            os.remove(out)
-    if "skipped" in row:
-        row = {"rake": rake, "h_pile": h, **row}
-    row["wall_seconds"] = time.perf_counter() - t0
-    return row
+    row = run_in_child("benchmarks.raked3d", f"{rake!r},{h!r}", timeout, mem_gb)
+    return {"rake": rake, "h_pile": h, **row} if "skipped" in row else row
 
 
 def _vertical_reference() -> tuple[dict, str]:
@@ -289,15 +249,10 @@ def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(prog="python -m benchmarks.raked3d",
                                  description=__doc__.splitlines()[0])
     ap.add_argument("--json", help="write the results to this file")
-    ap.add_argument("--timeout", type=float, default=360.0,
-                    help="seconds allowed per case before it is dropped (default 360)")
-    ap.add_argument("--mem-gb", type=float, default=12.0,
-                    help="address-space limit per case in GiB, 0 for none (default 12)")
-    ap.add_argument("--child", help=argparse.SUPPRESS)
-    ap.add_argument("--child-out", help=argparse.SUPPRESS)
+    add_arguments(ap)
     args = ap.parse_args(argv)
     if args.child:
-        return _child(args.child, args.child_out)
+        return child_main(args.child, args.child_out, _run_spec)
 
     rows = []
     for rake, h in CASES:  # sequentially: one heavy case at a time

@@ -21,10 +21,8 @@ import argparse
 import json
 import os
 import platform
-import subprocess
-import sys
-import tempfile
-import time
+
+from benchmarks.isolated import add_arguments, child_main, run_in_child
 
 __all__ = ["PARAMS", "CASES", "run_case", "main"]
 
@@ -81,57 +79,15 @@ def run_case(n_piles: int, ring_radius: float, h_pile: float) -> dict:
     return row
 
 
-def _child(spec: str, out: str) -> int:
-    """Child-process entry: run the case ``N,Rr,h`` and write its row (or the error) to out."""
+def _run_spec(spec: str) -> dict:
     n, rr, h = spec.split(",")
-    try:
-        row = run_case(int(n), float(rr), float(h))
-    except MemoryError:
-        row = {"skipped": "out of memory (MemoryError)"}
-    with open(out, "w") as fh:
-        json.dump(row, fh)
-    return 0
-
-
-def _limit_memory(gb: float):
-    def set_limit():
-        import resource
-
-        b = int(gb * 2**30)
-        resource.setrlimit(resource.RLIMIT_AS, (b, b))
-    return set_limit
+    return run_case(int(n), float(rr), float(h))
 
 
 def _run_isolated(n: int, rr: float, h: float, timeout: float, mem_gb: float) -> dict:
     """Run one case in a fresh interpreter with time and memory limits."""
-    fd, out = tempfile.mkstemp(suffix=".json")
-    os.close(fd)
-    cmd = [sys.executable, "-m", "benchmarks.ring3d_table", "--child", f"{n},{rr},{h}",
-           "--child-out", out]
-    t0 = time.perf_counter()
-    try:
-        proc = subprocess.run(cmd, timeout=timeout, capture_output=True, text=True,
-                              preexec_fn=_limit_memory(mem_gb) if mem_gb > 0 else None)
-        wall = time.perf_counter() - t0
-        try:
-            with open(out) as fh:
-                row = json.load(fh)
-        except (OSError, json.JSONDecodeError):
-            tail = (proc.stderr or "").strip().splitlines()[-3:]
-            reason = f"child failed (exit code {proc.returncode})"
-            if any("MemoryError" in s or "bad_alloc" in s for s in tail) or proc.returncode < 0:
-                reason += f"; probably out of memory (limit {mem_gb:g} GiB)"
-            row = {"skipped": reason + (": " + " | ".join(tail) if tail else "")}
-    except subprocess.TimeoutExpired:
-        wall = time.perf_counter() - t0
-        row = {"skipped": f"exceeded the time limit of {timeout:g} s; dropped"}
-    finally:
-        if os.path.exists(out):
-            os.remove(out)
-    if "skipped" in row:
-        row = {"N": n, "ring_radius": rr, "h_pile": h, **row}
-    row["wall_seconds"] = wall
-    return row
+    row = run_in_child("benchmarks.ring3d_table", f"{n},{rr},{h}", timeout, mem_gb)
+    return {"N": n, "ring_radius": rr, "h_pile": h, **row} if "skipped" in row else row
 
 
 def _convergence(rows: list[dict]) -> dict | None:
@@ -172,15 +128,10 @@ def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(prog="python -m benchmarks.ring3d_table",
                                  description=__doc__.splitlines()[0])
     ap.add_argument("--json", help="write the table to this file")
-    ap.add_argument("--timeout", type=float, default=360.0,
-                    help="seconds allowed per case before it is dropped (default 360)")
-    ap.add_argument("--mem-gb", type=float, default=12.0,
-                    help="address-space limit per case in GiB, 0 for none (default 12)")
-    ap.add_argument("--child", help=argparse.SUPPRESS)
-    ap.add_argument("--child-out", help=argparse.SUPPRESS)
+    add_arguments(ap)
     args = ap.parse_args(argv)
     if args.child:
-        return _child(args.child, args.child_out)
+        return child_main(args.child, args.child_out, _run_spec)
 
     rows = []
     for n, rr, h in CASES:  # sequentially: one case at a time

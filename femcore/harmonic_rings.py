@@ -43,6 +43,7 @@ from numpy.typing import NDArray
 
 from .beams import BeamBlock
 from .harmonic import HarmonicConstraints, HarmonicModel, check_harmonic
+from .kinematics import gradients_at_node
 
 __all__ = ["RingLine", "RingBeamBlock", "RingSpringBlock", "ring_factors", "add_ring",
            "ring_support", "tie_head_rigid", "tie_head_to_solid", "hermite_bending"]
@@ -234,31 +235,21 @@ def tie_head_to_solid(cons: HarmonicConstraints, line: RingLine, node: int, cell
     cons.tie(line.trans[0], [[3 * node], [3 * node + 1], [3 * node + 2]], [[1.0]] * 3)
     if not fixed_head:
         return
-    cells = np.asarray(cells, dtype=np.int64)
-    elem = mesh.element
     if n != 1 and not line.on_axis:  # chi belongs to the sin family: zero for n = 0
         cons.fix([line.rot[0, 1]], 0.0)
-    psi_m, psi_c, chi_m, chi_c = [], [], [], []
-    tr, tz = line.tangent
-    r = float(mesh.points[node, 0])
-    for c in cells:  # the few cells around one node (set-up only)
-        conn = mesh.cells[c]
-        a = int(np.flatnonzero(conn == node)[0])
-        dN_ref = elem.shape_gradients(elem.nodes[a:a + 1])[0]  # (n_en, 2)
-        J = mesh.points[conn].T @ dN_ref  # (2, 2)
-        dN = dN_ref @ np.linalg.inv(J)  # (n_en, 2)
-        Na = (conn == node).astype(float)  # shape functions at the node
-        w = 1.0 / len(cells)
-        psi_m += [3 * conn, 3 * conn + 1]
-        psi_c += [0.5 * w * dN[:, 1], -0.5 * w * dN[:, 0]]
-        if line.on_axis or n != 1:
-            continue
-        # chi = -t_z w_r + t_r w_z
-        chi_m += [3 * conn + 1, 3 * conn + 2, 3 * conn]
-        cW = -tz * 0.5 * (-n * Na / r)
-        cV = -tz * 0.5 * (-dN[:, 1]) + tr * 0.5 * (Na / r + dN[:, 0])
-        cU = tr * 0.5 * (n * Na / r)
-        chi_c += [w * cW, w * cV, w * cU]
+    conn, dN = gradients_at_node(mesh, cells, node)  # (k, a), (k, a, 2)
+    w = 1.0 / len(conn)
+    Na = (conn == node).astype(float)  # shape functions at the node, (k, a)
+    psi_m = [3 * conn.ravel(), 3 * conn.ravel() + 1]
+    psi_c = [0.5 * w * dN[..., 1].ravel(), -0.5 * w * dN[..., 0].ravel()]
+    chi_m, chi_c = [], []
+    if not line.on_axis and n == 1:  # chi = -t_z w_r + t_r w_z
+        tr, tz = line.tangent
+        r = float(mesh.points[node, 0])
+        chi_m = [3 * conn.ravel() + 1, 3 * conn.ravel() + 2, 3 * conn.ravel()]
+        chi_c = [w * (-tz * 0.5 * (-n * Na / r)).ravel(),
+                 w * (-tz * 0.5 * (-dN[..., 1]) + tr * 0.5 * (Na / r + dN[..., 0])).ravel(),
+                 w * (tr * 0.5 * (n * Na / r)).ravel()]
     cons.tie([line.rot[0, 0]], [np.concatenate(psi_m)], [np.concatenate(psi_c)])
     if chi_m:
         cons.tie([line.rot[0, 1]], [np.concatenate(chi_m)], [np.concatenate(chi_c)])

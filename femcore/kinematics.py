@@ -21,7 +21,8 @@ from .elements import ReferenceElement
 from .mesh import Mesh, MeshError
 from .quadrature import QuadratureRule, triangle_rule
 
-__all__ = ["Kinematics", "CellGeometry", "cell_geometry", "default_rule", "isoparametric_map"]
+__all__ = ["Kinematics", "CellGeometry", "cell_geometry", "default_rule", "isoparametric_map",
+           "gradients_at_node"]
 
 
 class Kinematics(str, enum.Enum):
@@ -149,3 +150,15 @@ def cell_geometry(
         B[:, :, 2, 0::2] = N[None, :, :] / r[..., None]
         dV = dV * (2.0 * np.pi * r)
     return CellGeometry(B=B, dV=dV, x=x_qp, N=N)
+
+
+def gradients_at_node(mesh: Mesh, cells: NDArray[np.int64], node: int):
+    """Physical shape-function gradients of ``cells`` (all containing ``node``) evaluated
+    at that node: connectivities ``(k, a)`` and ``dN (k, a, 2)`` (local rotations and
+    strains at a node, e.g. where a pile head meets the cap)."""
+    element = mesh.element
+    conn = mesh.cells[np.asarray(cells, dtype=np.int64)]  # (k, a)
+    local = np.argmax(conn == node, axis=1)  # (k,)
+    dN_ref = element.shape_gradients(element.nodes[local])  # (k, a, 2)
+    J = np.einsum("kad,kae->kde", mesh.points[conn], dN_ref)  # (k, 2, 2)
+    return conn, np.einsum("kae,ked->kad", dN_ref, np.linalg.inv(J))  # (k, a, 2)

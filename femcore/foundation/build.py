@@ -47,6 +47,7 @@ from ..beams import BeamBlock
 from ..dofs import ConstraintMap, Constraints
 from ..initial_stress import GAMMA_W, Layer, Profile
 from ..interfaces import ContactBlock, SpringBlock, contact_pairs
+from ..kinematics import gradients_at_node
 from ..mesh import Mesh
 from ..model import Model
 from .design import Design, SoilLayer
@@ -440,17 +441,11 @@ def _tie_head_to_cap(cons: Constraints, model: Model, head_dofs, cap_node: int,
     mesh = model.mesh
     cap_cells = mesh.cell_sets[regions.CAP]
     cells = cap_cells[np.any(mesh.cells[cap_cells] == cap_node, axis=1)]
-    masters, coefs = [], []
-    elem = mesh.element
-    for c in cells:  # the few cells around one node (set-up only)
-        conn = mesh.cells[c]
-        a = int(np.flatnonzero(conn == cap_node)[0])
-        dN_ref = elem.shape_gradients(elem.nodes[a:a + 1])[0]  # (n_en, 2)
-        J = mesh.points[conn].T @ dN_ref  # (2, 2)
-        dN = dN_ref @ np.linalg.inv(J)  # (n_en, 2)
-        # clockwise theta = -(1/2)(dv/dx - du/dy) = (1/2)(du/dy - dv/dx)
-        masters += [2 * conn, 2 * conn + 1]
-        coefs += [0.5 * dN[:, 1] / len(cells), -0.5 * dN[:, 0] / len(cells)]
+    conn, dN = gradients_at_node(mesh, cells, cap_node)  # (k, a), (k, a, 2)
+    k = len(cells)
+    # clockwise theta = -(1/2)(dv/dx - du/dy) = (1/2)(du/dy - dv/dx)
+    masters = [2 * conn.ravel(), 2 * conn.ravel() + 1]
+    coefs = [0.5 * dN[..., 1].ravel() / k, -0.5 * dN[..., 0].ravel() / k]
     cons.tie([head_dofs[2]], [np.concatenate(masters)], [np.concatenate(coefs)])
 
 
