@@ -25,10 +25,11 @@ __all__ = ["NewtonResult", "ConvergenceError", "newton"]
 class ConvergenceError(RuntimeError):
     """Newton-Raphson did not converge; ``history`` holds the relative residuals."""
 
-    def __init__(self, message: str, history: list[float]) -> None:
+    def __init__(self, message: str, history: list[float], singular: bool = False) -> None:
         super().__init__(f"{message}; relative residuals: "
                          + ", ".join(f"{h:.2e}" for h in history))
         self.history = list(history)
+        self.singular = singular  # the tangent was singular (a mechanism), not slow iterations
 
 
 @dataclass
@@ -109,7 +110,7 @@ def newton(
             if reuse is not None:
                 reuse.pop("lu", None)
             raise ConvergenceError(f"linear solve failed at iteration {it + 1}: {exc}",
-                                   history) from exc
+                                   history, singular=True) from exc
     if reuse is not None:
         reuse.pop("lu", None)
     raise ConvergenceError(f"no convergence in {max_iter} iterations", history)

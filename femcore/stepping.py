@@ -19,6 +19,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
+import scipy.sparse as sp
 from numpy.typing import NDArray
 
 from materials.base import State
@@ -76,6 +77,7 @@ class StepResult:
     states: list[State]
     seconds: float = 0.0
     cutbacks: int = 0
+    failure: dict | None = None  # where and why the last increment failed (diverged runs)
 
     @property
     def lam(self) -> NDArray[np.float64]:
@@ -121,7 +123,8 @@ class Stepper:
 
     Parameters
     ----------
-    model, cmap : the model and its constraints (the controlled DOFs must be prescribed)
+    model, cmap : the model and its constraints (the controlled DOFs must be prescribed,
+        except in the proportional-load mode below)
     f_ext : (n_dofs,) external forces held constant
     control_dofs : full DOF numbers of the prescribed DOFs to move
     increments : total change of each controlled DOF over the pushover
@@ -129,6 +132,18 @@ class Stepper:
     f_ext_end : (n_dofs,) optional; external forces then go linearly from ``f_ext`` to it
     observer : ``(u, states) -> dict`` called on every committed state (e.g. pile forces)
     stop_when : ``StepRecord -> bool``; True ends the pushover (status "ok")
+    grid : optional sorted load factors in (0, 1] on which increments land: a step never
+        jumps past a grid point; a cut-back step sub-steps inside a grid interval and the
+        stepping lands back on the grid point
+    max_relative : optional bound on an increment relative to the load factor reached
+        (``step <= max_relative * lam``, from ``lam >= relative_from`` on): the curve keeps
+        points at large travel
+    proportional : optional ``f_ref`` (n_dofs,): displacement control of one DOF under a
+        proportional load (Batoz & Dhatt 1979, Incremental displacement algorithms for
+        nonlinear problems, IJNME 14): the single control DOF stays free, its value is an
+        extra equation, and the load ``lam_f * f_ref`` has an unknown factor ``lam_f``,
+        solved with the displacements from one bordered system. The recorded force is
+        ``lam_f``.
     """
 
     model: Model
@@ -141,6 +156,21 @@ class Stepper:
     f_ext_end: NDArray[np.float64] | None = None
     observer: Callable[[NDArray[np.float64], list], dict] | None = None
     stop_when: Callable[[StepRecord], bool] | None = None
+    grid: Sequence[float] | None = None
+    max_relative: float | None = None
+    relative_from: float = 0.0
+    proportional: NDArray[np.float64] | None = None
+
+    def _next_target(self, lam: float, step: float, grid) -> float:
+        """The load factor the next increment aims at (see ``grid``, ``max_relative``)."""
+        target = lam + step
+        if self.max_relative is not None and lam >= self.relative_from and lam > 0:
+            target = min(target, lam * (1.0 + self.max_relative))
+        if grid is not None:
+            above = grid[grid > lam * (1 + 1e-12) + 1e-15]
+            if above.size and target >= above[0] * (1 - 1e-12):
+                target = float(above[0])
+        return min(target, 1.0)
 
     def run(
         self,
@@ -150,47 +180,84 @@ class Stepper:
     ) -> StepResult:
         t_start = time.perf_counter()
         cfg, cmap, model = self.settings, self.cmap, self.model
-        positions = np.array([cmap.fixed_position(d) for d in self.control_dofs],
-                             dtype=np.int64)
-        base = cmap.prescribed_values
-        if u0 is not None:  # start from the current displacement of the controlled DOFs
-            base[positions] = u0[list(self.control_dofs)]
+        prop = self.proportional is not None
         inc = np.asarray(self.increments, dtype=np.float64)
-        ctrl_master = cmap.master_index[list(self.control_dofs)]
-        states = states0 if states0 is not None else model.initial_states()
         u = np.zeros(model.n_dofs) if u0 is None else np.array(u0, dtype=np.float64)
+        if prop:
+            if len(self.control_dofs) != 1:
+                raise ValueError("proportional loading controls exactly one DOF")
+            d = int(self.control_dofs[0])
+            hit = np.flatnonzero(cmap.free == cmap.master_index[d])
+            if cmap.master_index[d] < 0 or hit.size == 0:
+                raise ValueError(f"the control DOF {d} must be free under proportional loading")
+            ctrl_free = int(hit[0])
+            f_ref_red = cmap.reduce_vector(self.proportional)
+            base_ctrl = float(u[d])
+            positions = np.zeros(0, dtype=np.int64)
+            base = cmap.prescribed_values
+        else:
+            positions = np.array([cmap.fixed_position(d) for d in self.control_dofs],
+                                 dtype=np.int64)
+            base = cmap.prescribed_values
+            if u0 is not None:  # start from the current displacement of the controlled DOFs
+                base[positions] = u0[list(self.control_dofs)]
+        ctrl_master = cmap.master_index[list(self.control_dofs)]
+        grid = None if self.grid is None else np.unique(np.asarray(self.grid, dtype=float))
+        states = states0 if states0 is not None else model.initial_states()
         u_free = _free_part(cmap, u)
+        lam_f = 0.0  # the unknown load factor of proportional loading
+        scale: dict = {}  # its scale (see _bordered_callback)
         records: list[StepRecord] = []
         lam, step, cutbacks, peak = 0.0, cfg.initial_step, 0, 0.0
-        velocity = None  # d(u_free)/d(lam) of the last increment: the predictor
+        velocity = None  # d(x)/d(lam) of the last increment: the predictor
         reuse: dict | None = {} if cfg.reuse_factorization else None
         status, message = "ok", "target reached"
+        failure: dict | None = None
         while lam < 1.0 - 1e-12:
-            step = min(step, 1.0 - lam)
-            values = _current(base, positions, inc, lam + step)
+            target = self._next_target(lam, step, grid)
+            dlam = target - lam
+            values = _current(base, positions, inc, target)
             cmap.set_prescribed(values)
-            guess = u_free if velocity is None else u_free + step * velocity
             f_ext = self.f_ext if self.f_ext_end is None else \
-                self.f_ext + (lam + step) * (self.f_ext_end - self.f_ext)
+                self.f_ext + target * (self.f_ext_end - self.f_ext)
+            x = u_free if not prop else np.append(u_free, lam_f / scale.get("s", 1.0))
+            guess = x if velocity is None else x + dlam * velocity
+            if prop:  # the control equation holds from the first iterate on
+                guess[ctrl_free] = base_ctrl + target * float(inc[0]) - _tied_part(cmap, d)
+                callback_fn = _bordered_callback(model, cmap, f_ext, states, self.proportional,
+                                                 f_ref_red, ctrl_free,
+                                                 base_ctrl + target * float(inc[0]), scale)
+            else:
+                callback_fn = residual_callback(model, cmap, f_ext, states)
             try:
-                res = newton(residual_callback(model, cmap, f_ext, states), guess,
-                             rtol=cfg.rtol, max_iter=cfg.max_iterations, backend=cfg.backend,
-                             reuse=reuse)
+                res = newton(callback_fn, guess, rtol=cfg.rtol, max_iter=cfg.max_iterations,
+                             backend=cfg.backend, reuse=reuse)
             except ConvergenceError as exc:
                 cutbacks += 1
-                log.debug("increment %.3g failed at lam %.4f: %s", step, lam, exc)
-                step *= 0.5
+                log.debug("increment %.3g failed at lam %.4f: %s", dlam, lam, exc)
+                step = 0.5 * dlam
                 if step < cfg.min_step:
                     status = "diverged"
-                    message = f"no convergence at load factor {lam:.4f} with step {step:.2e}: {exc}"
+                    message = (f"no convergence at load factor {lam:.4f} with step "
+                               f"{step:.2e}: {exc}")
+                    failure = {"lam": lam, "step": dlam, "singular": exc.singular,
+                               "error": str(exc)}
                     break
                 continue
             # converged: commit
             u_full, trial, generalized = res.payload
-            velocity = (res.x - u_free) / step
-            states, u_free, u, lam = trial, res.x, u_full, lam + step
-            force = generalized[ctrl_master]
-            rec = StepRecord(lam, values[positions].copy(), force.copy(),
+            velocity = (res.x - x) / dlam
+            states, lam = trial, target
+            if prop:
+                u_free, lam_f = res.x[:-1], float(res.x[-1]) * scale["s"]
+                force = np.array([lam_f])
+                ctrl_values = u_full[list(self.control_dofs)].copy()
+            else:
+                u_free = res.x
+                force = generalized[ctrl_master]
+                ctrl_values = values[positions].copy()
+            u = u_full
+            rec = StepRecord(lam, ctrl_values, force.copy(),
                              u_full[list(self.monitor_dofs)].copy(), res.iterations, res.history,
                              self.observer(u_full, states) if self.observer else {})
             records.append(rec)
@@ -199,6 +266,7 @@ class Stepper:
             if self.stop_when is not None and self.stop_when(rec):
                 message = "stopping criterion met"
                 break
+            step = max(step, dlam)  # a step shortened to land on the grid keeps its allowance
             if res.iterations <= 1:  # (nearly) linear response: double
                 step = min(step * max(cfg.grow, 2.0), cfg.max_step)
             elif res.iterations <= cfg.easy_iterations:
@@ -212,7 +280,49 @@ class Stepper:
                 break
         cmap.set_prescribed(_current(base, positions, inc, lam))  # leave the map at the end state
         return StepResult(status, message, records, u, states,
-                              time.perf_counter() - t_start, cutbacks)
+                          time.perf_counter() - t_start, cutbacks, failure)
+
+
+def _bordered_callback(model: Model, cmap: ConstraintMap, f_ext, states, f_ref, f_ref_red,
+                       ctrl_free: int, ctrl_value: float, scale: dict):
+    """Newton callback of proportional loading: ``x = [u_free, mu]`` with the load factor
+    ``lam_f = s mu``, residual ``[T^T (f_int - f_ext - s mu f_ref), s (u_ctrl - value)]`` and
+    the bordered tangent ``[[K, -s f_ref], [s e_ctrl^T, 0]]``. ``s`` (the mean stiffness
+    diagonal of the first tangent, kept in ``scale`` for the whole run) keeps the border in
+    scale with K, so that the pivots of the border are not mistaken for a singularity."""
+    base = residual_callback(model, cmap, f_ext, states)
+    norm_ref = float(np.linalg.norm(f_ref_red))
+    nz = np.flatnonzero(f_ref_red)
+
+    def residual(x):
+        u_free = x[:-1]
+        r, K_of, res_scale, (u, trial, generalized) = base(u_free)
+
+        def tangent():
+            K = K_of()
+            if "s" not in scale:
+                scale["s"] = float(np.abs(K.diagonal()).mean()) or 1.0
+            s = scale["s"]
+            n = K.shape[0]
+            col = sp.csc_matrix((-s * f_ref_red[nz], (nz, np.zeros(nz.size, dtype=np.int64))),
+                                shape=(n, 1))
+            row = sp.csc_matrix(([s], ([0], [ctrl_free])), shape=(1, n))
+            return sp.bmat([[K, col], [row, None]], format="csc")
+
+        s = scale.get("s", 1.0)
+        lam_f = s * x[-1]
+        r = r - lam_f * f_ref_red
+        g = s * (u_free[ctrl_free] - ctrl_value)
+        generalized = generalized - lam_f * cmap.generalized(f_ref)
+        return (np.append(r, g), tangent, max(res_scale, abs(lam_f) * norm_ref),
+                (u, trial, generalized))
+
+    return residual
+
+
+def _tied_part(cmap: ConstraintMap, dof: int) -> float:
+    """Prescribed contribution ``g`` to a full DOF (0 for a free master DOF)."""
+    return float(cmap.g[dof])
 
 
 def _free_part(cmap: ConstraintMap, u: NDArray[np.float64]) -> NDArray[np.float64]:

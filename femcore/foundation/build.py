@@ -316,9 +316,11 @@ def set_slice_length(built: BuiltModel, L: float) -> None:
     built.meta["slice_length_m"] = float(L)
 
 
-def build_model(design: Design, slice_length: float | None = None) -> BuiltModel:
+def build_model(design: Design, slice_length: float | None = None,
+                pile_resistance: float = 1.0) -> BuiltModel:
     """The 2D model of a (validated) design (see module docstring); ``slice_length``
-    overrides the design's out-of-plane length (the calibrated value)."""
+    overrides the design's out-of-plane length (the calibrated value); the pile shaft, tip
+    and lateral resistances are divided by ``pile_resistance`` (a partial factor)."""
     if design.analysis.geometry == "harmonic":
         raise ValueError("build_model builds 2D models; harmonic designs are built by "
                          "femcore.foundation.elastic3d.build_harmonic")
@@ -345,7 +347,8 @@ def build_model(design: Design, slice_length: float | None = None) -> BuiltModel
 
     meta = {"slice_length_m": L, "rows": [r.__dict__ for r in rows],
             "support": an.support, "element": an.element, "mesh": an.mesh,
-            "slip_stiffening": piles.slip_stiffening if an.support == "continuum" else 1.0}
+            "slip_stiffening": piles.slip_stiffening if an.support == "continuum" else 1.0,
+            "pile_resistance_factor": pile_resistance}
     if an.support == "springs":
         return _build_springs(design, rows, L, profile, soil_at, ref_xy, ped_top, meta,
                               (A, I, perimeter, r0))
@@ -399,7 +402,7 @@ def build_model(design: Design, slice_length: float | None = None) -> BuiltModel
         nodes = nodes[order]
         xy = mesh.points[nodes]
         pr = _pile_row(model, f"pile_{k}", row, xy, L, design, soil_at, (A, I, perimeter, r0),
-                       soil_nodes=nodes)
+                       soil_nodes=nodes, divisor=meta["pile_resistance_factor"])
         pile_rows.append(pr)
         # head: translations follow the cap node at the head; rotation the cap's local rotation
         cap_head = nodes[0] if new_index is None or new_index[nodes[0]] < 0 \
@@ -450,7 +453,7 @@ def _tie_head_to_cap(cons: Constraints, model: Model, head_dofs, cap_node: int,
 
 
 def _pile_row(model: Model, name: str, row: Row, xy, L: float, design: Design, soil_at,
-              section, soil_nodes=None) -> PileRow:
+              section, soil_nodes=None, divisor: float = 1.0) -> PileRow:
     A, I, perimeter, r0 = section
     piles = design.piles
     f = row.count / L  # piles per metre of slice
@@ -470,10 +473,11 @@ def _pile_row(model: Model, name: str, row: Row, xy, L: float, design: Design, s
     depth = -xy[:, 1]
     s = soil_at(depth)
     below_head = np.hypot(*(xy - xy[0]).T)
+    f_res = f / divisor  # resistances per metre of slice, divided by a partial factor
     t_lim = shaft_limit(s["undrained"], s["su"], s["phi"], s["sigma_v_eff"], perimeter,
-                        piles.alpha, piles.beta) * trib * f
+                        piles.alpha, piles.beta) * trib * f_res
     p_lim = lateral_limit(s["undrained"], s["su"], s["phi"], s["sigma_v_eff"], below_head,
-                          piles.width, piles.lateral_factor) * trib * f
+                          piles.width, piles.lateral_factor) * trib * f_res
     kt = shaft_stiffness(s["G"], s["nu"], r0, piles.length) * trib * fk
     kp = lateral_stiffness(s["G"]) * trib * fk
     k = np.stack([kt, kp], axis=1)
@@ -484,7 +488,7 @@ def _pile_row(model: Model, name: str, row: Row, xy, L: float, design: Design, s
                           np.tile(normal, (n_nodes, 1)), k, -lim, lim, depth)
     model.add_element_block(springs)
     st = {key: v[-1:] for key, v in s.items()}
-    qb = tip_limit(st["undrained"], st["su"], st["phi"], st["sigma_v_eff"], A) * f
+    qb = tip_limit(st["undrained"], st["su"], st["phi"], st["sigma_v_eff"], A) * f_res
     kb = tip_stiffness(st["G"], st["nu"], r0) * fk
     tip = SpringBlock(f"{name}_tip", dofs[-1:, :2],
                       None if soil_dofs is None else soil_dofs[-1:], t[None], normal[None],
@@ -510,7 +514,8 @@ def _build_springs(design, rows, L, profile, soil_at, ref_xy, ped_top, meta, sec
         (x0, y0), (x1, y1) = _row_line(row, head_y, piles.length)
         s = np.linspace(0.0, 1.0, n_el + 1)[:, None]
         xy = np.array([x0, y0]) + s * np.array([x1 - x0, y1 - y0])
-        pr = _pile_row(model, f"pile_{k}", row, xy, L, design, soil_at, section)
+        pr = _pile_row(model, f"pile_{k}", row, xy, L, design, soil_at, section,
+                       divisor=meta["pile_resistance_factor"])
         pile_rows.append(pr)
         cons.tie_points_rigid(pr.beam_dofs[:1], xy[:1], "ref", rotation=piles.head == "fixed")
     meta.update({"cap_weight_kN_per_m": _cap_area(design) * cap.gamma})

@@ -18,10 +18,14 @@ from typing import Annotated, Any, Literal
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 __all__ = ["AnalysisSettings", "SoilLayer", "Soil", "Cap", "PileRing", "Piles", "Loading",
-           "Requirements", "Keypoints", "Design", "design_from_dict", "load_design",
+           "Requirements", "Keypoints", "DesignStrength", "Design", "ROTATION_CAP", "design_from_dict", "load_design",
            "DesignError", "demo_design", "SCHEMA_VERSION"]
 
 SCHEMA_VERSION = "1"
+
+#: Default rotation cap of the pushover, rad: 95 % or more of the example design space
+#: reach their plateau before it (README, docs/keypoints.md).
+ROTATION_CAP = 0.05
 
 Pos = Annotated[float, Field(gt=0, allow_inf_nan=False)]
 NonNeg = Annotated[float, Field(ge=0, allow_inf_nan=False)]
@@ -188,7 +192,11 @@ class Loading(_Model):
     lever_arm: Pos | None = Field(None, description="h = M/H of the load case, m (lever)")
     horizontal: float = Field(0.0, description="horizontal load held under rotation control, "
                               "kN")
-    rotation_max: float = Field(0.01, gt=1e-4, le=0.1, description="target rotation, rad")
+    rotation_max: float = Field(
+        ROTATION_CAP, gt=1e-4, le=0.1, description="rotation cap of the pushover, rad: the "
+        "pushover ends here, or earlier where the moment-rotation curve holds its plateau")
+    stop_at_plateau: bool = Field(True, description="end the pushover once the curve holds "
+                                  "its plateau (the capacity); false runs to rotation_max")
     initial_increment: float = Field(2e-6, gt=1e-9, lt=1e-5,
                                      description="first rotation increment, rad (< 1e-5)")
     settlement_max: float = Field(0.1, gt=0.0, le=2.0,
@@ -217,6 +225,21 @@ class Requirements(_Model):
                                           "be in tension, kNm")
 
 
+class DesignStrength(_Model):
+    """Partial factors on the soil strength for a second, factored pushover (each >= 1,
+    dividing the characteristic value). Which values apply is the user's responsibility
+    (EN 1997-1 and its national annex)."""
+
+    su: float = Field(1.0, ge=1.0, le=3.0, description="factor on the undrained shear "
+                      "strength s_u (and its gradient)")
+    c: float = Field(1.0, ge=1.0, le=3.0, description="factor on the effective cohesion c'")
+    tan_phi: float = Field(1.0, ge=1.0, le=3.0, description="factor on tan(phi'); the "
+                           "dilation angle is capped at the factored phi'")
+    pile_resistance: float = Field(1.0, ge=1.0, le=3.0, description="factor on the pile "
+                                   "shaft, tip and lateral resistances (after the soil "
+                                   "factors)")
+
+
 class Keypoints(_Model):
     rotations: list[Annotated[float, Field(gt=0, le=0.1)]] = Field(
         [0.001, 0.003, 0.005], description="rotations for 'moment at', rad")
@@ -234,6 +257,9 @@ class Design(_Model):
     analysis: AnalysisSettings = Field(default_factory=AnalysisSettings)
     requirements: Requirements = Field(default_factory=Requirements)
     keypoints: Keypoints = Field(default_factory=Keypoints)
+    design_strength: DesignStrength | None = Field(
+        None, description="partial factors for a second pushover with design strengths; the "
+        "capacity requirement is then checked against its capacity")
 
     @property
     def pile_tip_depth(self) -> float:
@@ -294,6 +320,17 @@ class Design(_Model):
                     problems.append(f"piles.rings.{i}.count = {ring.count}: a ring of the "
                                     "harmonic model needs at least 3 piles (allowed: 3-200, "
                                     "or radius 0 with one centre pile)")
+        lo = self.loading
+        if lo.control == "lever" and lo.lever_arm is not None and lo.lever_arm < self.cap.diameter:
+            problems.append(f"loading.lever_arm = {lo.lever_arm} m is too short to control the "
+                            f"rotation: need lever_arm >= cap.diameter = {self.cap.diameter} m "
+                            "(H = M/h; below it the horizontal load governs: a sliding check, "
+                            "not a moment-rotation pushover)")
+        if lo.control != "settlement" and self.keypoints.rotations and \
+                max(self.keypoints.rotations) > lo.rotation_max:
+            problems.append(f"loading.rotation_max = {lo.rotation_max} rad is below the largest "
+                            f"key-point rotation {max(self.keypoints.rotations)} rad: need "
+                            f"rotation_max >= {max(self.keypoints.rotations)} (at most 0.1)")
         if self.analysis.geometry == "axisymmetric" and self.loading.control != "settlement":
             problems.append("loading.control must be 'settlement' for axisymmetric analyses")
         if self.loading.control == "settlement" and self.analysis.geometry != "axisymmetric":
@@ -375,7 +412,7 @@ def demo_design(**analysis) -> Design:
                 pedestal_diameter=6.4),
         piles=Piles(width=0.45, length=21.5, rings=[PileRing(radius=9.9, count=28, rake=1 / 6),
                                                     PileRing(radius=6.6, count=16)]),
-        loading=Loading(vertical=8400.0, control="lever", lever_arm=92.0, rotation_max=0.005),
+        loading=Loading(vertical=8400.0, control="lever", lever_arm=92.0),
         analysis=AnalysisSettings(**analysis),
         requirements=Requirements(static_stiffness_min=30e6, static_stiffness_moment=138e3,
                                   dynamic_stiffness_min=150e6, dynamic_stiffness_moment=40e3,

@@ -47,6 +47,14 @@ class RequirementCheck:
     def as_dict(self) -> dict:
         return asdict(self)
 
+    @property
+    def verdict(self) -> str:
+        """PASS, FAIL, "not reached" (a capacity whose curve had no plateau before the
+        rotation cap: only a lower bound is known) or "not decided"."""
+        if self.passed is None:
+            return "not reached" if self.extra.get("censored") else "not decided"
+        return "PASS" if self.passed else "FAIL"
+
 
 @dataclass(frozen=True)
 class PileEnvelope:

@@ -4,7 +4,9 @@
   (operational moduli E of each layer) >= ``static_stiffness_min``;
 * ``dynamic_stiffness``: the small-strain (G0) elastic stiffness (harmonic 3D solve where the
   design allows it) >= ``dynamic_stiffness_min``;
-* ``capacity``: ultimate moment / ``resistance_factor`` >= ``design_moment``;
+* ``capacity``: ultimate moment (of the design-strength pushover when the design has
+  ``[design_strength]``) / ``resistance_factor`` >= ``design_moment``; a censored ultimate
+  (no plateau before the rotation cap) reads "not reached" with its lower bound;
 * ``no_pile_tension``: the least pile axial compression up to ``no_tension_moment`` >= 0.
 
 A check whose data are missing (the curve never reached the moment, no G0 given) is reported
@@ -34,10 +36,35 @@ def _ratio_check(name: str, value: float | None, required: float, unit: str, det
                             float(value / required - 1.0), detail, extra)
 
 
+def _capacity_check(req, ult: KeyPoint | None, factored: KeyPoint | None) -> RequirementCheck:
+    """Ultimate / resistance factor against the design moment. A censored ultimate (no
+    plateau before the rotation cap) is a lower bound: the check reads "not reached" with
+    that bound, never pass or fail."""
+    use = factored if factored is not None else ult
+    which = "design-strength (factored) ultimate" if factored is not None else \
+        "ultimate moment"
+    extra = {"resistance_factor": req.resistance_factor, "source":
+             "design_strength" if factored is not None else "characteristic"}
+    detail = f"{which} / resistance factor {req.resistance_factor:g} against the design moment"
+    if use is None or use.value is None:
+        return _ratio_check("capacity", None, req.design_moment, "kNm", detail,
+                            "no pushover curve", censored=None, **extra)
+    value = use.value / req.resistance_factor
+    if use.extra.get("censored"):
+        return RequirementCheck(
+            "capacity", float(value), req.design_moment, "kNm", None, None,
+            f"{detail}; not reached: no plateau before the rotation cap, the capacity is at "
+            f"least {value:.6g} kNm (a lower bound)", {**extra, "censored": True,
+                                                        "lower_bound": float(value)})
+    return _ratio_check("capacity", value, req.design_moment, "kNm", detail, "",
+                        censored=False, **extra)
+
+
 def check_requirements(design: Design, rotation: NDArray[np.float64],
                        moment: NDArray[np.float64], keypoints: dict[str, KeyPoint],
                        min_compression: Sequence[float],
-                       dynamic: DynamicStiffness | None) -> dict[str, RequirementCheck]:
+                       dynamic: DynamicStiffness | None,
+                       factored_ultimate: KeyPoint | None = None) -> dict[str, RequirementCheck]:
     """All requirement checks of ``design`` for a pushover curve.
 
     Parameters
@@ -46,6 +73,8 @@ def check_requirements(design: Design, rotation: NDArray[np.float64],
     keypoints : key points of the curve (``ultimate`` is used)
     min_compression : (n_steps,) least pile axial compression of each step (kN per pile)
     dynamic : the dynamic stiffness, or None when it was not computed
+    factored_ultimate : the ultimate of the design-strength pushover; when given, the
+        capacity check uses it instead of the characteristic ``ultimate``
     """
     req = design.requirements
     out: dict[str, RequirementCheck] = {}
@@ -68,14 +97,7 @@ def check_requirements(design: Design, rotation: NDArray[np.float64],
             + (dynamic.method if dynamic is not None else "not computed") + ")", why,
             at_moment=req.dynamic_stiffness_moment)
     if req.design_moment is not None:
-        ult = keypoints.get("ultimate")
-        cap = None if ult is None or ult.value is None else ult.value / req.resistance_factor
-        censored = bool(ult.extra.get("censored")) if ult is not None else None
-        out["capacity"] = _ratio_check(
-            "capacity", cap, req.design_moment, "kNm",
-            f"ultimate moment / resistance factor {req.resistance_factor:g} against the design "
-            "moment" + (" (ultimate censored: a lower bound)" if censored else ""),
-            "no pushover curve", resistance_factor=req.resistance_factor, censored=censored)
+        out["capacity"] = _capacity_check(req, keypoints.get("ultimate"), factored_ultimate)
     if req.no_tension_moment is not None:
         m = np.asarray(moment, dtype=np.float64)
         comp = np.asarray(min_compression, dtype=np.float64)

@@ -22,7 +22,14 @@ from .build import BuiltModel, build_model, set_slice_length
 from .design import SCHEMA_VERSION, Design, design_from_dict
 from .dynamic import dynamic_stiffness
 from .elastic3d import calibrated_slice_length, check_harmonic_layout, harmonic_stiffness
-from .keypoints import KeyPoint, analyse_curve, moment_at_rotation, ultimate_plateau
+from .keypoints import (
+    PLATEAU_TANGENT,
+    KeyPoint,
+    analyse_curve,
+    moment_at_rotation,
+    ultimate_plateau,
+)
+from .strength import factored_design
 from .records import (
     CAUTION,
     DynamicStiffness,
@@ -37,7 +44,7 @@ from .stages import StageLog, run_stages, stages_for
 __all__ = ["Result", "run_design", "run_built", "run_harmonic", "prepare",
            "RESULT_SCHEMA_VERSION"]
 
-RESULT_SCHEMA_VERSION = "3"
+RESULT_SCHEMA_VERSION = "4"
 
 
 def _clean(obj):
@@ -84,6 +91,7 @@ class Result:
     dynamic: DynamicStiffness | None = None
     stages: list[dict] = field(default_factory=list)
     elastic: ElasticStiffness | None = None
+    design_strength: dict | None = None  # the factored pushover (see run_built)
     built: BuiltModel | None = field(default=None, repr=False)
     pushover: StepResult | None = field(default=None, repr=False)
 
@@ -95,6 +103,7 @@ class Result:
             "keypoints": {k: v.as_dict() for k, v in self.keypoints.items()},
             "dynamic": None if self.dynamic is None else self.dynamic.as_dict(),
             "elastic": None if self.elastic is None else self.elastic.as_dict(),
+            "design_strength": self.design_strength,
             "requirements": {k: v.as_dict() for k, v in self.requirements.items()},
             "piles": [p.as_dict() for p in self.piles], "model": self.model,
             "stages": self.stages, "timings": self.timings, "caution": CAUTION})
@@ -208,15 +217,71 @@ def _initial_from_harmonic(kp: dict[str, KeyPoint], elastic: ElasticStiffness) -
          "slice_method": None if old is None else old.method})
 
 
+def _pushover_outcome(built: BuiltModel, res: StepResult, curve: dict, kp: dict) -> tuple:
+    """(status, message) of a finished pushover, and the ultimate key point fixed up for a
+    mechanism. A failed increment is a mechanism (status ok, the curve kept, the ultimate
+    its last moment) when the tangent was singular or the curve was already on its plateau
+    slope (chord tangent below 2 % of the initial stiffness); otherwise a divergence, with
+    the stage, the rotation and moment reached and what was tried."""
+    if res.status != "diverged":
+        ult = kp.get("ultimate")
+        if ult is not None and ult.extra.get("censored"):
+            cap = built.design.loading.rotation_max
+            return "censored", (f"no plateau up to the rotation cap {cap:g} rad: the ultimate "
+                                "moment is a lower bound (raise loading.rotation_max)")
+        return "ok", res.message
+    rot, mom = curve.get("rotation", np.zeros(0)), curve.get("moment", np.zeros(0))
+    fail = res.failure or {}
+    k0 = kp["initial_stiffness"].extra.get("slice") if "initial_stiffness" in kp else None
+    k0 = k0 or (kp["initial_stiffness"].value if "initial_stiffness" in kp else None)
+    flat = False
+    if rot.size >= 2 and k0:
+        t_last = (mom[-1] - mom[-2]) / max(rot[-1] - rot[-2], 1e-30)
+        flat = bool(t_last <= PLATEAU_TANGENT * k0)
+    th = float(rot[-1]) if rot.size else 0.0
+    m = float(mom[-1]) if mom.size else 0.0
+    where = f"at rotation {th * 1e3:.3g} mrad, M = {m / 1e3:.4g} MNm"
+    if fail.get("singular") or flat:
+        why = ("the tangent stiffness is singular" if fail.get("singular") else
+               "no equilibrium beyond it, on a flat curve")
+        k = int(np.argmax(mom)) if mom.size else 0
+        kp["ultimate"] = KeyPoint(
+            "ultimate", float(mom[k]) if mom.size else 0.0, "kNm",
+            "mechanism: the largest moment before the foundation could carry no more "
+            "(held vertical load and H = M/h)", {},
+            {"rotation": float(rot[k]) if rot.size else 0.0, "censored": False,
+             "confirmed": True, "end_rotation": th, "mechanism": True})
+        return "ok", f"capacity reached: mechanism {where} ({why})"
+    step = fail.get("step", 0.0) * built.design.loading.rotation_max
+    return "diverged", (f"pushover stage: no convergence {where} after {res.cutbacks} "
+                        f"cut-back(s), the last increment {step * 1e3:.2g} mrad; tried: "
+                        "halving the increment down to the minimum, up to 25 Newton "
+                        "iterations each from a linear extrapolation (the curve was still "
+                        "rising: not a mechanism)")
+
+
+def _initial_stage_failure(built: BuiltModel, failed) -> tuple[str, str]:
+    """(status, message) of a weight or vertical-load stage that did not converge: a
+    singular tangent is a mechanism under that load (status ok, no moment capacity)."""
+    fail = failed.result.failure or {}
+    lam = fail.get("lam", 0.0)
+    if fail.get("singular") and failed.name == "vertical load":
+        return "ok", (f"capacity reached: mechanism under the vertical load alone at {lam:.0%} "
+                      f"of V = {built.design.loading.vertical:g} kN (no moment capacity)")
+    return "diverged", (f"{failed.name} stage: no convergence at {lam:.0%} of the load after "
+                        f"{failed.result.cutbacks} cut-back(s) ({failed.result.message})")
+
+
 def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None = None,
               settings: StepSettings | None = None, dynamic: bool = True,
-              elastic: ElasticStiffness | None = None) -> Result:
+              elastic: ElasticStiffness | None = None, factored: bool = True) -> Result:
     """Run the stages of a built model and evaluate everything (see the module docstring).
 
     ``progress`` sees every converged pushover increment; ``settings`` overrides the pushover
     increments; ``dynamic`` False skips the small-strain analysis (its check is then
     reported as not decided); ``elastic`` (the harmonic operational stiffness, computed
-    here when None and the design allows it) gives the initial stiffness.
+    here when None and the design allows it) gives the initial stiffness; ``factored``
+    False skips the design-strength pushover of a design with ``[design_strength]``.
     """
     t0 = time.perf_counter()
     design = built.design
@@ -230,8 +295,12 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     final = log.last
     info = _model_info(built)
     if failed is not None and failed is not final:  # an initial stage failed: no curve
-        return Result("diverged", f"{failed.name} stage: {failed.result.message}", {}, {}, {},
-                      [], info, {"total_s": t1 - t0, "build_s": built.meta.get("build_s", 0.0)},
+        status, message = _initial_stage_failure(built, failed)
+        kp0 = {} if status != "ok" else {"ultimate": KeyPoint(
+            "ultimate", 0.0, "kNm", "mechanism under the vertical load alone", {},
+            {"rotation": 0.0, "censored": False, "mechanism": True})}
+        return Result(status, message, {}, kp0, {}, [], info,
+                      {"total_s": t1 - t0, "build_s": built.meta.get("build_s", 0.0)},
                       design.name, None, stage_rows, built=built, pushover=failed.result)
     res = final.result
     dyn = None
@@ -239,23 +308,30 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
         curve, kp = _settlement_curve(built, log, res)
         status_kp = kp.get("ultimate_vertical")
         req: dict[str, RequirementCheck] = {}
+        status: Status = "diverged" if res.status == "diverged" else \
+            ("censored" if status_kp is not None and status_kp.extra["censored"] else "ok")
+        message = res.message
+        strength = None
     else:
         curve = _moment_curve(built, log, res)
         kp = analyse_curve(curve["rotation"], curve["moment"], design.keypoints.rotations,
-                           design.keypoints.moments) if curve["rotation"].size >= 2 else {}
-        status_kp = kp.get("ultimate")
+                           design.keypoints.moments, require_confirmed=True) \
+            if curve["rotation"].size >= 2 else {}
         if elastic is None and design.analysis.geometry == "plane_strain" \
                 and not check_harmonic_layout(design):
             elastic = harmonic_stiffness(design, vertical=False)
         if elastic is not None:
             _initial_from_harmonic(kp, elastic)
+        status, message = _pushover_outcome(built, res, curve, kp)
+        strength = None
+        if factored and design.design_strength is not None:
+            strength = _design_strength_run(built, elastic, settings)
         if dynamic:
             dyn = dynamic_stiffness(design, slice_length=built.slice_length)
         req = check_requirements(design, curve["rotation"], curve["moment"], kp,
-                                 _least_compression(res), dyn)
+                                 _least_compression(res), dyn,
+                                 None if strength is None else strength.get("ultimate"))
     t2 = time.perf_counter()
-    status: Status = "diverged" if res.status == "diverged" else \
-        ("censored" if status_kp is not None and status_kp.extra["censored"] else "ok")
     stages_s = sum(o.seconds for o in log.outcomes[:-1])
     pre = built.meta.get("build_s", 0.0) + built.meta.get("harmonic_s", 0.0)
     cal = built.meta.get("slice_calibration") or {}
@@ -266,9 +342,36 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
                "total_s": t2 - t0 + pre,
                "increments": len(res.records), "iterations": int(res.iterations.sum()),
                "cutbacks": res.cutbacks}
-    return Result(status, res.message, curve, kp, req, _pile_envelopes(built, res), info,
-                  timings, design.name, dyn, stage_rows, elastic=elastic, built=built,
-                  pushover=res)
+    if strength is not None:
+        timings["design_strength_s"] = strength["seconds"]
+        timings["postprocess_s"] -= strength["seconds"]
+    out = Result(status, message, curve, kp, req, _pile_envelopes(built, res), info,
+                 timings, design.name, dyn, stage_rows, elastic=elastic, built=built,
+                 pushover=res)
+    out.design_strength = None if strength is None else strength["record"]
+    return out
+
+
+def _design_strength_run(built: BuiltModel, elastic, settings) -> dict:
+    """The factored pushover of a design with ``[design_strength]``: the same mesh and
+    slice length, the soil strengths divided by the factors (:func:`factored_design`)."""
+    t = time.perf_counter()
+    design = built.design
+    fd = factored_design(design)
+    fb = build_model(fd, slice_length=built.slice_length,
+                     pile_resistance=design.design_strength.pile_resistance)
+    fb.meta.update(slice_calibration=built.meta.get("slice_calibration"))
+    sub = run_built(fb, settings=settings, dynamic=False, elastic=elastic, factored=False)
+    ult = sub.keypoints.get("ultimate")
+    keep = ("ultimate", "yield_equal_energy", "yield_tangents", "ultimate_hyperbolic")
+    record = {"factors": design.design_strength.model_dump(), "status": sub.status,
+              "message": sub.message,
+              "keypoints": {k: sub.keypoints[k].as_dict() for k in keep if k in sub.keypoints},
+              "curve": {k: np.asarray(sub.curve[k]).tolist() for k in ("rotation", "moment")
+                        if k in sub.curve},
+              "increments": sub.timings.get("increments"),
+              "seconds": time.perf_counter() - t}
+    return {"ultimate": ult, "record": record, "seconds": record["seconds"]}
 
 
 def prepare(design: Design) -> tuple[BuiltModel, ElasticStiffness | None]:

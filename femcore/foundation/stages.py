@@ -34,10 +34,12 @@ from ..initial_stress import apply_k0, profile_loads
 from ..model import SolidBlock
 from ..stepping import Stepper, StepRecord, StepResult, StepSettings
 from .build import BuiltModel, backfill_load
+from .keypoints import INITIAL_ROTATION, plateau, secant_at_rotation
 
 __all__ = ["StageState", "StageOutcome", "AtRestStresses", "SelfWeight", "VerticalLoad",
            "Pushover", "SettlementPath", "run_stages", "stages_for", "LOAD_RAMP",
-           "SETTLEMENT_STEPS", "pushover_steps", "pile_observer"]
+           "SETTLEMENT_STEPS", "pushover_steps", "pile_observer", "rotation_grid",
+           "plateau_stop", "PUSHOVER_RELATIVE", "PUSHOVER_RELATIVE_FROM"]
 
 #: Load ramps of the weight and vertical-load stages: two halves, at most 12 Newton iterations
 #: each, halving down to 1/1000 on failure; the first iteration reuses the last factorization.
@@ -49,10 +51,10 @@ SETTLEMENT_STEPS = StepSettings(initial_step=1e-3, min_step=1e-5, max_step=0.05)
 
 
 def pushover_steps(first: float) -> StepSettings:
-    """Pushover increments: ``first`` (a fraction of the target travel) first, growing by 1.6
-    after easy increments up to 4 % of the target, halving on failure down to
-    ``min(first, 1e-4) / 8``."""
-    return StepSettings(initial_step=first, min_step=min(first, 1e-4) / 8, max_step=0.04,
+    """Pushover increments: ``first`` (a fraction of the rotation cap) first, growing by 1.6
+    after easy increments (bounded by :data:`PUSHOVER_RELATIVE` and the grid), halving on
+    failure down to ``min(first, 1e-4) / 8``."""
+    return StepSettings(initial_step=first, min_step=min(first, 1e-4) / 8, max_step=0.1,
                         grow=1.6, reuse_factorization=True)
 
 
@@ -167,11 +169,55 @@ class VerticalLoad:
         return StageState(res.u, res.states, f_v), res
 
 
+#: Increments of the pushover above this rotation stay below ``PUSHOVER_RELATIVE`` times the
+#: rotation reached (rad): the curve keeps points through the knee and beyond.
+PUSHOVER_RELATIVE_FROM = 5e-4
+PUSHOVER_RELATIVE = 0.2
+
+
+def rotation_grid(design, extra: Sequence[float] = ()) -> NDArray[np.float64]:
+    """Rotations (rad, from the start of the pushover) on which pushover increments land:
+    the initial-secant rotation, the key-point rotations, a geometric grid of ratio
+    1 + ``PUSHOVER_RELATIVE`` from ``PUSHOVER_RELATIVE_FROM`` and the rotation cap."""
+    cap = design.loading.rotation_max
+    n = int(np.ceil(np.log(cap / PUSHOVER_RELATIVE_FROM) / np.log1p(PUSHOVER_RELATIVE))) \
+        if cap > PUSHOVER_RELATIVE_FROM else 0
+    geo = PUSHOVER_RELATIVE_FROM * (1 + PUSHOVER_RELATIVE) ** np.arange(n + 1)
+    keys = np.concatenate([[INITIAL_ROTATION], design.keypoints.rotations, extra, [cap]])
+    near = np.abs(np.log(geo[:, None] / keys[None, :])).min(axis=1) < \
+        0.3 * np.log1p(PUSHOVER_RELATIVE)  # no sliver increments beside a key rotation
+    pts = np.concatenate([keys, geo[~near]])
+    return np.unique(pts[(pts > 0) & (pts <= cap)])
+
+
+def plateau_stop(k_index: int = 0):
+    """A stop rule for the pushover: the curve (rotation, moment per m) holds its plateau
+    (:func:`~femcore.foundation.keypoints.plateau`)."""
+    rot: list[float] = []
+    mom: list[float] = []
+
+    def stop(rec: StepRecord, rotation: float, moment: float) -> bool:
+        rot.append(rotation)
+        mom.append(moment)
+        if len(rot) < 3 or rotation <= 0:
+            return False
+        k0 = secant_at_rotation(rot, mom, INITIAL_ROTATION)
+        if k0 is None or k0 <= 0:
+            return False
+        return plateau(rot, mom, k0).confirmed
+
+    return stop
+
+
 @dataclass(frozen=True)
 class Pushover:
-    """Rotation of the tower base (``rotation``) or travel of the lever-arm tip (``lever``) up
-    to the target rotation, V held. ``settings`` None uses :func:`pushover_steps` with the
-    design's first increment."""
+    """Rotation of the tower base up to the rotation cap, V held, stopping once the
+    moment-rotation curve holds its plateau (``loading.stop_at_plateau``). ``rotation``
+    control: the rotation is prescribed, a horizontal load held; ``lever``: H = M / h
+    throughout, the rotation still the controlled quantity (a proportional load with its
+    factor solved with the displacements, Batoz & Dhatt 1979), so both controls land on the
+    same rotation grid (:func:`rotation_grid`). ``settings`` None uses
+    :func:`pushover_steps` with the design's first increment."""
 
     settings: StepSettings | None = None
     name: str = "pushover"
@@ -179,25 +225,34 @@ class Pushover:
     def run(self, built: BuiltModel, state: StageState, progress=None):
         loading, dm = built.design.loading, built.model.dofmap
         U, W, TH = (dm.ref_dof(built.ref, k) for k in range(3))
-        ctrl = TH if loading.control == "rotation" else U
-        cmap = built.constraints.build(extra_fixed={ctrl: 0.0})
+        target = loading.rotation_max
         theta0 = float(state.u[TH])
         h = built.lever_height
         if loading.control == "rotation":
-            target = loading.rotation_max
-            first = loading.initial_increment / target
+            cmap = built.constraints.build(extra_fixed={TH: 0.0})
+            f_ref = None
         else:
-            target = 1.6 * loading.rotation_max * h  # tip travel; stops on the rotation
-            first = loading.initial_increment * h / target
+            cmap = built.free_map
+            f_ref = np.zeros(built.model.n_dofs)
+            f_ref[U] = 1.0
+        grid = rotation_grid(built.design) / target
+        rule = plateau_stop()
 
         def stop(rec: StepRecord) -> bool:
-            return rec.monitor[2] - theta0 >= loading.rotation_max * (1 - 1e-9)
+            m = rec.force[0] if loading.control == "rotation" else rec.force[0] * h
+            return rule(rec, float(rec.monitor[2] - theta0), float(m))
 
-        res = Stepper(built.model, cmap, state.f_ext, [ctrl], [target], monitor_dofs=[U, W, TH],
-                      settings=self.settings or pushover_steps(first),
+        res = Stepper(built.model, cmap, state.f_ext, [TH], [target], monitor_dofs=[U, W, TH],
+                      settings=self.settings or pushover_steps(loading.initial_increment
+                                                               / target),
                       observer=pile_observer(built),
-                      stop_when=None if loading.control == "rotation" else stop).run(
+                      stop_when=stop if loading.stop_at_plateau else None, grid=grid,
+                      max_relative=PUSHOVER_RELATIVE,
+                      relative_from=PUSHOVER_RELATIVE_FROM / target,
+                      proportional=f_ref).run(
             u0=state.u, states0=state.states, callback=progress)
+        if res.message == "stopping criterion met":
+            res.message = "capacity reached: the moment-rotation curve holds its plateau"
         return StageState(res.u, res.states, state.f_ext), res
 
 

@@ -112,10 +112,6 @@ def _cmd_check(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def _verdict(chk) -> str:
-    return {True: "PASS", False: "FAIL", None: "not decided"}[chk.passed]
-
-
 def _print_summary(result, out: Path, t_total: float) -> None:
     print()
     print(f"status        {result.status}  ({result.message})")
@@ -143,11 +139,25 @@ def _print_summary(result, out: Path, t_total: float) -> None:
     if slice_rows:
         print("  plane-strain slice values beside the harmonic ones: " + ", ".join(
             f"{k} {v / 1e6:.3f} GNm/rad" for k, v in slice_rows))
+    ds = result.design_strength
+    if ds is not None:
+        ult_d = (ds["keypoints"].get("ultimate") or {}).get("value")
+        ult_c = result.keypoints["ultimate"].value if "ultimate" in result.keypoints else None
+        f = ds["factors"]
+        ratio = f"  ({ult_d / ult_c:.3f} of the characteristic)" if ult_d and ult_c else ""
+        cens = " (censored: a lower bound)" if (ds["keypoints"].get("ultimate") or {}).get(
+            "extra", {}).get("censored") else ""
+        print(f"design strengths (factors s_u {f['su']:g}, c' {f['c']:g}, tan phi' "
+              f"{f['tan_phi']:g}, piles {f['pile_resistance']:g}): {ds['status']}")
+        print(f"  {'ultimate (factored)':28s} "
+              + (f"{ult_d / 1e3:10.2f} MNm{cens}{ratio}" if ult_d is not None else "-"))
     if result.requirements:
         print("requirement checks")
         for name, chk in result.requirements.items():
             margin = "" if chk.margin is None else f"   margin {100 * chk.margin:+7.1f} %"
-            print(f"  {name:28s} {_verdict(chk):4s}{margin}")
+            if chk.extra.get("lower_bound") is not None:
+                margin = f"   capacity at least {chk.extra['lower_bound'] / 1e3:.2f} MNm"
+            print(f"  {name:28s} {chk.verdict:11s}{margin}")
     tm = result.timings
     if result.model.get("geometry") == "harmonic":
         print(f"timings       {t_total:.1f} s total (harmonic solves "
@@ -156,7 +166,10 @@ def _print_summary(result, out: Path, t_total: float) -> None:
         parts = [f"{label} {tm[key]:.1f} s" for key, label in
                  (("harmonic_s", "harmonic 3D solve"), ("calibration_s", "slice calibration"))
                  if tm.get(key, 0.0) >= 0.05]
-        parts += [f"pushover {tm.get('pushover_s', 0):.1f} s",
+        parts += [f"pushover {tm.get('pushover_s', 0):.1f} s"]
+        parts += [f"design-strength pushover {tm['design_strength_s']:.1f} s"] \
+            if tm.get("design_strength_s") else []
+        parts += [
                   f"{tm.get('increments', 0)} increments",
                   f"{tm.get('iterations', 0)} Newton iterations"]
         print(f"timings       {t_total:.1f} s total ({', '.join(parts)})")

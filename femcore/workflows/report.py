@@ -45,9 +45,22 @@ def _summary_page(plt, result: Result):
         lines.append(f"  {kp.name:28s} {_fmt(kp.value, 1, 5):>12s} {kp.unit:8s} {kp.method}")
     lines += ["", "Requirement checks", ""]
     for name, chk in result.requirements.items():
-        verdict = {True: "PASS", False: "FAIL", None: "not decided"}[chk.passed]
-        lines.append(f"  {name:28s} {verdict:5s}" +
-                     ("" if chk.margin is None else f"  margin {100 * chk.margin:+.1f} %"))
+        lines.append(f"  {name:28s} {chk.verdict:11s}" +
+                     ("" if chk.margin is None else f"  margin {100 * chk.margin:+.1f} %") +
+                     (f"  capacity at least {chk.extra['lower_bound'] / 1e3:.4g} MNm"
+                      if chk.extra.get("lower_bound") is not None else ""))
+    ds = result.design_strength
+    if ds is not None:
+        f, ud = ds["factors"], (ds["keypoints"].get("ultimate") or {})
+        uc = result.keypoints.get("ultimate")
+        ratio = ud.get("value") / uc.value if ud.get("value") and uc and uc.value else None
+        lines += ["", f"Design strengths: s_u / {f['su']:g}, c' / {f['c']:g}, tan phi' / "
+                  f"{f['tan_phi']:g}, pile resistances / {f['pile_resistance']:g} "
+                  f"({ds['status']})",
+                  f"  ultimate (factored) {_fmt(ud.get('value'), 1e3, 4)} MNm"
+                  + ("" if ratio is None else f" = {ratio:.3f} x the characteristic")
+                  + (" (censored: a lower bound)" if ud.get("extra", {}).get("censored")
+                     else "")]
     dynamic = result.dynamic
     if dynamic is not None:
         lines += ["", f"Dynamic rotational stiffness: {_fmt(dynamic.value, 1e6, 4)} GNm/rad"
@@ -142,6 +155,15 @@ def _curve_figure(plt, result: Result):
     th = np.concatenate([[0.0], c["rotation"]])
     M = np.concatenate([[0.0], c["moment"]]) / 1e3
     ax.plot(th * 1e3, M, color=_ACCENT, lw=1.8, label="pushover")
+    ds = result.design_strength
+    if ds is not None and ds["curve"].get("rotation"):
+        ax.plot(np.concatenate([[0.0], ds["curve"]["rotation"]]) * 1e3,
+                np.concatenate([[0.0], ds["curve"]["moment"]]) / 1e3, color=_ACCENT, lw=1.2,
+                ls="--", label="pushover, design strengths")
+        ud = ds["keypoints"].get("ultimate") or {}
+        if ud.get("value") is not None and ud.get("extra", {}).get("rotation") is not None:
+            ax.plot(ud["extra"]["rotation"] * 1e3, ud["value"] / 1e3, "o", mfc="white",
+                    color=_INK, ms=5, label="ultimate, design strengths")
     kp = result.keypoints
     for name, marker in (("yield_equal_energy", "s"), ("yield_tangents", "D"),
                          ("ultimate", "o")):

@@ -113,9 +113,19 @@ def result_file_model():
     Dynamic = pydantic_dataclass(config=strict, frozen=True)(DynamicStiffness)
     Elastic = pydantic_dataclass(config=strict, frozen=True)(ElasticStiffness)
 
+    class DesignStrengthOut(BaseModel):
+        model_config = ConfigDict(extra="forbid")
+        factors: dict[str, float]
+        status: Literal["ok", "censored", "diverged"]
+        message: str
+        keypoints: dict[str, KeyPointOut]
+        curve: dict[str, list[float | None]]
+        increments: int | None
+        seconds: float
+
     class ResultFile(BaseModel):
         model_config = ConfigDict(extra="forbid")
-        schema_version: Literal["3"]
+        schema_version: Literal["4"]
         design_schema_version: str
         status: Literal["ok", "censored", "diverged"]
         message: str
@@ -125,6 +135,7 @@ def result_file_model():
         requirements: dict[str, Requirement]
         dynamic: Dynamic | None
         elastic: Elastic | None
+        design_strength: DesignStrengthOut | None
         piles: list[dict]
         model: dict
         stages: list[dict]
