@@ -284,6 +284,56 @@ def free_cap(mesh: Mesh, design: Design):
     return new_mesh, shared, new_index, top
 
 
+def freed_soil_edges(mesh: Mesh, design: Design, first_extra_line: int) -> NDArray[np.int64]:
+    """Cap contact ``none``: the soil faces the cap and the removed backfill no longer hold
+    (soil side of the cap underside and edge, and the backfill wall from the cap edge top to
+    the ground); the soil keeps the original node numbers when the cap is split."""
+    cap = design.cap
+    R, yu = cap.diameter / 2, -cap.underside_depth
+    tol = 1e-6 * max(1.0, R)
+    edges = mesh.edge_sets.get(regions.CAP_SOIL, np.zeros((0, 2), dtype=np.int64))
+    ec = mesh.points[edges].mean(axis=1) if len(edges) else np.zeros((0, 2))
+    keep = (ec[:, 1] <= yu + tol) | (np.abs(ec[:, 0]) >= R - tol) if len(edges) else \
+        np.zeros(0, dtype=bool)
+    parts = [edges[keep]]
+    k = first_extra_line
+    while regions.line(k) in mesh.edge_sets:
+        parts.append(mesh.edge_sets[regions.line(k)])
+        k += 1
+    return np.concatenate(parts, axis=0) if parts else edges
+
+
+def greenfield_traction(model: Model, edges, design: Design, profile: Profile
+                        ) -> NDArray[np.float64]:
+    """Loads that hold freed soil faces in the greenfield (K0) state: the traction
+    sigma_0 n of the total at-rest stress (sigma_v, K0 sigma'_v + u) with n the outward
+    normal of the soil (towards the cap: -sign(x) on the vertical faces, up on the
+    underside). The cap of contact ``none`` is wished in place: the soil is neither
+    excavated nor loaded by it, and the freed faces do not collapse under their own weight
+    when the strengths are factored."""
+    from ..assembly import assemble_vector
+    from ..loads import edge_geometry
+
+    if len(edges) == 0:
+        return np.zeros(model.n_dofs)
+    R = design.cap.diameter / 2
+    tol = 1e-6 * max(1.0, R)
+    N, x, _, ds = edge_geometry(model.mesh, edges, model.analysis)
+    depth = np.maximum(-x[..., 1], 0.0)  # (e, q)
+    sv = profile.total_vertical(depth)
+    u = profile.pore_pressure(depth)
+    K0 = np.array([ly.K0 for ly in profile.layers])[profile.layer_index(depth)]
+    sh = K0 * (sv - u) + u
+    mid = model.mesh.points[edges].mean(axis=1)  # (e, 2)
+    vertical = np.abs(mid[:, 0]) >= R - tol
+    t = np.zeros((*depth.shape, 2))
+    t[..., 0] = np.where(vertical[:, None], sh * np.sign(mid[:, 0])[:, None], 0.0)
+    t[..., 1] = np.where(vertical[:, None], 0.0, -sv)
+    f_e = np.einsum("qa,eqd,eq->ead", N, t, ds)
+    return assemble_vector(model.n_dofs, model.dofmap.cell_dofs(edges),
+                           f_e.reshape(len(edges), -1))
+
+
 def backfill_load(model: Model, edges, profile: Profile) -> NDArray[np.float64]:
     """The weight of the removed backfill on the cap top edges: a vertical load
     sigma_v(depth) (total stress of the profile) per unit horizontal projection, i.e. the
@@ -361,10 +411,12 @@ def build_model(design: Design, slice_length: float | None = None,
     new_index = None
     underside = None
     top_edges = np.zeros((0, mesh.element.order + 1), dtype=np.int64)
+    freed = top_edges
     if cap.contact == "frictional":
         mesh, split_nodes, new_index, underside = _split_underside(mesh, head_y, R)
     elif cap.contact == "none":
         mesh, split_nodes, new_index, top_edges = free_cap(mesh, design)
+        freed = freed_soil_edges(mesh, design, len(lines) + 1)
 
     model = Model(mesh, an.geometry)
     tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])
@@ -410,7 +462,8 @@ def build_model(design: Design, slice_length: float | None = None,
         _tie_head_to_cap(cons, model, pr.beam_dofs[0], int(cap_head),
                          rotation=piles.head == "fixed")
     meta.update({"n_split_nodes": int(split_nodes.size), "domain_width_m": width,
-                 "domain_depth_m": depth, "backfill_edges": top_edges})
+                 "domain_depth_m": depth, "backfill_edges": top_edges,
+                 "freed_edges": freed})
     return BuiltModel(design, model, cons, "ref", ref_xy, ped_top, L, pile_rows, profile, meta)
 
 

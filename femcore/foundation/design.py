@@ -419,4 +419,5 @@ def demo_design(**analysis) -> Design:
                                   design_moment=186.3e3, resistance_factor=1.0,
                                   no_tension_moment=72e3),
         keypoints=Keypoints(rotations=[0.001, 0.003, 0.005], moments=[40e3, 138e3]),
+        design_strength=DesignStrength(su=1.4, c=1.25, tan_phi=1.25),
     )

@@ -93,9 +93,9 @@ def tangent_intersection(theta, M, k_initial: float, tail: float = 0.1):
     return float(t), float(k_initial * t)
 
 
-#: The plateau rule (see :func:`plateau`): the chord tangent over the last 20 % of the
-#: rotation below 2 % of the initial stiffness and below 10 % of the secant, holding from
-#: there to 1.5 times that rotation.
+#: The plateau rule (see :func:`plateau_measure`): the chord tangent over the last 20 % of
+#: the rotation below 2 % of the initial stiffness or below 10 % of the secant, holding
+#: from there to 1.5 times that rotation.
 PLATEAU_TANGENT = 0.02
 PLATEAU_LOG_SLOPE = 0.10
 PLATEAU_WINDOW = 1.25
@@ -116,13 +116,19 @@ class Plateau:
 def plateau_measure(theta, M, k_initial: float):
     """The plateau measure ``g`` at the curve points (``g <= 1``: on the plateau).
 
-    ``g = max(t / (PLATEAU_TANGENT K0), t / (PLATEAU_LOG_SLOPE M / theta))`` with ``t`` the
-    chord slope of the curve over ``[theta / PLATEAU_WINDOW, theta]``. The chord over a fixed
-    fraction of the rotation makes ``t`` independent of the increment sizes; the secant
-    term (a log-slope d ln M / d ln theta below 0.1: doubling the rotation adds under 7 %)
-    keeps a curve that still hardens in proportion to its own moment off the plateau, where
-    the tangent alone hovers around 2 % of K0 for many mrad. Returns (theta, g) of the curve
-    points above the first window."""
+    ``g = min(t / (PLATEAU_TANGENT K0), t / (PLATEAU_LOG_SLOPE M / theta))``, ``t`` the
+    chord slope of the curve over ``[theta / PLATEAU_WINDOW, theta]``:
+
+    * the chord over a fixed fraction of the rotation makes ``t`` independent of the
+      increment sizes;
+    * the tangent limit (2 % of K0) is the common practice for reading a capacity off a
+      hardening FE curve, and stays met on a long, slowly hardening tail;
+    * the secant limit (log-slope d ln M / d ln theta below 0.1: doubling the rotation adds
+      under 7 %) falls steeply through the knee, so its crossing is well-posed where the
+      tangent alone hovers around 2 % of K0 for many mrad; and a curve that hardens only
+      just above 2 % of K0 after a sharp knee is not pushed to the rotation cap.
+
+    Returns (theta, g) at the curve points above the first window."""
     th, m = _curve(theta, M)
     pts = th[th >= th[1] * PLATEAU_WINDOW] if th.size > 1 else th[:0]
     if pts.size == 0:
@@ -132,34 +138,40 @@ def plateau_measure(theta, M, k_initial: float):
     t = (m_pts - m_lo) / (pts - lo)
     with np.errstate(divide="ignore", invalid="ignore"):
         g_tan = t / (PLATEAU_TANGENT * k_initial) if k_initial > 0 else np.full_like(t, np.inf)
-        g_sec = np.where(m_pts > 0, t * pts / (PLATEAU_LOG_SLOPE * m_pts), np.inf)
-    return pts, np.maximum(g_tan, g_sec)
+        g_sec = np.where(m_pts > 0, t * pts / (PLATEAU_LOG_SLOPE * np.maximum(m_pts, 1e-300)),
+                         np.inf)
+    return pts, np.minimum(g_tan, g_sec)
 
 
 def plateau(theta, M, k_initial: float) -> Plateau:
-    """The plateau of a curve (rule: :func:`plateau_measure`), crossing interpolated.
+    """The plateau of a curve (measure: :func:`plateau_measure`), crossing interpolated.
 
-    The plateau starts after the last point with ``g > 1`` (a curve that hardens again
-    leaves it); its rotation is the linear interpolation of ``g = 1`` between that point and
-    the next, its moment the curve's moment there. Common practice for reading a capacity
-    off a hardening FE curve (a tangent-stiffness limit), combined here with a secant limit
-    so that the rule is well-posed on slowly hardening curves."""
+    The plateau rotation is the first crossing of ``g = 1`` (linear in ``g`` between two
+    curve points) after which ``g <= 1`` holds up to ``PLATEAU_CONFIRM`` times that
+    rotation; its moment is the curve's moment there. A crossing the curve has not yet
+    held that far is returned unconfirmed."""
     th, m = _curve(theta, M)
     pts, g = plateau_measure(th, m, k_initial)
     if pts.size < 2:
         return Plateau(None, None, False)
-    above = np.flatnonzero(~(g <= 1.0))
-    if above.size and above[-1] == g.size - 1:
-        return Plateau(None, None, False)
-    if above.size == 0:
-        tp = float(pts[0])
-    else:
-        k = int(above[-1])
-        gk, gn = (g[k] if np.isfinite(g[k]) else 1e30), g[k + 1]
-        frac = (gk - 1.0) / (gk - gn) if gk > gn else 1.0
-        tp = float(pts[k] + frac * (pts[k + 1] - pts[k]))
-    mp = float(np.interp(tp, th, m))
-    return Plateau(tp, mp, bool(th[-1] >= PLATEAU_CONFIRM * tp * (1 - 1e-9)))
+    on = g <= 1.0
+    starts = np.flatnonzero(on & np.concatenate([[True], ~on[:-1]]))
+    last = None
+    for k in starts:
+        if k == 0:
+            tp = float(pts[0])
+        else:
+            gk, gn = (g[k - 1] if np.isfinite(g[k - 1]) else 1e30), g[k]
+            frac = (gk - 1.0) / (gk - gn) if gk > gn else 1.0
+            tp = float(pts[k - 1] + frac * (pts[k] - pts[k - 1]))
+        window = (pts > tp) & (pts <= PLATEAU_CONFIRM * tp * (1 + 1e-9))
+        held = bool(np.all(g[window] <= 1.0))
+        reached = th[-1] >= PLATEAU_CONFIRM * tp * (1 - 1e-9)
+        if held:
+            last = Plateau(tp, float(np.interp(tp, th, m)), bool(reached))
+            if reached:
+                return last
+    return last if last is not None else Plateau(None, None, False)
 
 
 def ultimate_plateau(theta, M, k_initial: float, ratio: float = 0.02):
@@ -238,7 +250,7 @@ def analyse_curve(theta, M, rotations=(), moments=(), initial_rotation: float = 
             "chord_window": PLATEAU_WINDOW, "confirm": PLATEAU_CONFIRM}
     if pl.rotation is not None and (pl.confirmed or not require_confirmed):
         out["ultimate"] = KeyPoint("ultimate", pl.moment, "kNm",
-                                   "plateau: chord tangent below 2 % of the initial and 10 % "
+                                   "plateau: chord tangent below 2 % of the initial or 10 % "
                                    "of the secant stiffness (crossing interpolated)", rule,
                                    {"rotation": pl.rotation, "censored": False,
                                     "confirmed": pl.confirmed, "end_rotation": float(th[-1])})

@@ -285,7 +285,8 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     """
     t0 = time.perf_counter()
     design = built.design
-    log = run_stages(built, stages_for(built, settings), progress)
+    stages = stages_for(built, settings)
+    log = run_stages(built, stages, progress)
     t1 = time.perf_counter()
     stage_rows = [{"name": o.name, "seconds": o.seconds,
                    "increments": 0 if o.result is None else len(o.result.records),
@@ -294,7 +295,8 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     failed = log.failed
     final = log.last
     info = _model_info(built)
-    if failed is not None and failed is not final:  # an initial stage failed: no curve
+    if failed is not None and len(log.outcomes) < len(stages) or \
+            failed is not None and failed is not final:  # an initial stage failed: no curve
         status, message = _initial_stage_failure(built, failed)
         kp0 = {} if status != "ok" else {"ultimate": KeyPoint(
             "ultimate", 0.0, "kNm", "mechanism under the vertical load alone", {},

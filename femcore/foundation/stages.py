@@ -33,7 +33,7 @@ from numpy.typing import NDArray
 from ..initial_stress import apply_k0, profile_loads
 from ..model import SolidBlock
 from ..stepping import Stepper, StepRecord, StepResult, StepSettings
-from .build import BuiltModel, backfill_load
+from .build import BuiltModel, backfill_load, greenfield_traction
 from .keypoints import INITIAL_ROTATION, plateau, secant_at_rotation
 
 __all__ = ["StageState", "StageOutcome", "AtRestStresses", "SelfWeight", "VerticalLoad",
@@ -127,6 +127,9 @@ def weight_loads(built: BuiltModel) -> NDArray[np.float64]:
         edges = built.meta.get("backfill_edges")
         if edges is not None and len(edges):
             f += backfill_load(model, edges, built.profile)
+        freed = built.meta.get("freed_edges")
+        if freed is not None and len(freed):
+            f += greenfield_traction(model, freed, built.design, built.profile)
         return f
     f = np.zeros(model.n_dofs)
     f[model.dofmap.ref_dof(built.ref, 1)] = -built.meta["cap_weight_kN_per_m"]
