@@ -44,7 +44,7 @@ CASES: dict[str, dict] = {
                                          {"radius": 9.0, "count": 20},
                                          {"radius": 5.0, "count": 10}]},
     "springs_at_vertical_capacity": {"analysis.support": "springs",
-                                     "loading.vertical": 56000.0},
+                                     "loading.vertical": 97000.0},
     "high_water_heavy": {"soil.water_table": 0.0, "loading.vertical": 11000.0},
     "long_raked": {"piles.length": 26.0, "piles.rings.0.rake": 0.25},
     "short_piles_soft": {"piles.length": 12.0, "soil.layers.2.su": 8.0,

@@ -154,6 +154,10 @@ BAD_INPUTS = [
     (("analysis.geometry", "3d"), "analysis.geometry"),
     (("analysis.slice_length", "auto"), "analysis.slice_length"),
     (("piles.rings.0.radius", -1.0), "piles.rings.0.radius"),
+    (("loading.lever_arm", 0.01), "loading.lever_arm = 0.01 m is too short"),
+    (("loading.rotation_max", 0.004), "loading.rotation_max = 0.004 rad is below"),
+    (("design_strength.su", 0.9), "design_strength.su"),
+    (("design_strength.tan_phi", 0.5), "design_strength.tan_phi"),
 ]
 
 
