@@ -39,14 +39,15 @@ CASES: dict[str, dict] = {
          "G0": 120000.0}]},
     "small_cap_one_ring": {"cap.diameter": 16.0, "cap.pedestal_diameter": 5.5,
                            "piles.rings": [{"radius": 6.9, "count": 20}]},
-    "large_cap_3rings": {"cap.diameter": 28.0,
+    "large_cap_3rings": {"cap.diameter": 28.0, "soil.layers.4.thickness": 45.0,
                          "piles.rings": [{"radius": 12.9, "count": 32, "rake": 1 / 6},
                                          {"radius": 9.0, "count": 20},
                                          {"radius": 5.0, "count": 10}]},
     "springs_at_vertical_capacity": {"analysis.support": "springs",
                                      "loading.vertical": 97000.0},
     "high_water_heavy": {"soil.water_table": 0.0, "loading.vertical": 11000.0},
-    "long_raked": {"piles.length": 26.0, "piles.rings.0.rake": 0.25},
+    "long_raked": {"piles.length": 26.0, "piles.rings.0.rake": 0.25,
+                   "soil.layers.4.thickness": 40.0},
     "short_piles_soft": {"piles.length": 12.0, "soil.layers.2.su": 8.0,
                          "soil.layers.2.E": 1500.0},
 }
@@ -106,8 +107,8 @@ def main(argv=None) -> int:
         ult = "-" if row["ultimate_MNm"] is None else f"{row['ultimate_MNm']:.1f}"
         print(f"{name:32s} {row['status']:9s} M_u {ult:>8s} MNm at "
               f"{row['rotation_mrad'] or 0:5.1f} mrad censored={row['censored']} "
-              f"{row['increments']:3d} incr {row['cutbacks']:2d} cut {row['seconds']:6.1f} s  "
-              f"{row['message']}", flush=True)
+              f"{row['increments'] or 0:3d} incr {row['cutbacks'] or 0:2d} cut "
+              f"{row['seconds']:6.1f} s  {row['message']}", flush=True)
     if args.json:
         with open(args.json, "w") as fh:
             json.dump(rows, fh, indent=1)

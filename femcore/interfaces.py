@@ -39,6 +39,11 @@ class SpringBlock:
     k : (n, 2) stiffness in (t, n), kN/m per metre of slice
     f_min, f_max : (n, 2) force bounds, kN per metre of slice (f_min <= 0 <= f_max)
     depth : (n,) depth of each spring (reporting)
+    residual_tangent : fraction of ``k`` kept in the tangent (not the force) of a spring at
+        its limit: 0 is the consistent tangent; a tiny value (the pushover uses 1e-6) keeps
+        the tangent regular where a yielded spring would leave a free local mode (a pinned
+        pile whose lateral springs have all yielded swings about its head), without
+        changing any force or equilibrium
     """
 
     name: str
@@ -50,6 +55,7 @@ class SpringBlock:
     f_min: NDArray[np.float64]
     f_max: NDArray[np.float64]
     depth: NDArray[np.float64]
+    residual_tangent: float = 0.0
 
     def __post_init__(self) -> None:
         R = np.stack([self.t, self.normal], axis=1)  # (n, 2, 2): d = R (u_b - u_s)
@@ -70,6 +76,8 @@ class SpringBlock:
     def evaluate(self, u_e: NDArray[np.float64], state: SpringState):
         d = np.einsum("nki,ni->nk", self.B, u_e)  # (n, 2)
         f, k_tan, trial = epp_update(d, state, self.k, self.f_min, self.f_max)
+        if self.residual_tangent:
+            k_tan = np.where(k_tan == 0.0, self.residual_tangent * self.k, k_tan)
         f_e = np.einsum("nki,nk->ni", self.B, f)
         return f_e, lambda: np.einsum("nki,nk,nkj->nij", self.B, k_tan, self.B), trial
 

@@ -25,11 +25,13 @@ __all__ = ["NewtonResult", "ConvergenceError", "newton"]
 class ConvergenceError(RuntimeError):
     """Newton-Raphson did not converge; ``history`` holds the relative residuals."""
 
-    def __init__(self, message: str, history: list[float], singular: bool = False) -> None:
+    def __init__(self, message: str, history: list[float], singular: bool = False,
+                 iteration: int | None = None) -> None:
         super().__init__(f"{message}; relative residuals: "
                          + ", ".join(f"{h:.2e}" for h in history))
         self.history = list(history)
         self.singular = singular  # the tangent was singular (a mechanism), not slow iterations
+        self.iteration = iteration  # the iteration at which it failed (None: all used)
 
 
 @dataclass
@@ -53,6 +55,7 @@ def newton(
     backend: str = "superlu",
     divergence: float = 1e6,
     reuse: dict | None = None,
+    line_search: bool = False,
 ) -> NewtonResult:
     """Solve ``r(x) = 0``.
 
@@ -72,20 +75,25 @@ def newton(
         factorized as soon as that step reduces the residual by less than a factor 10. The
         latest factorization is stored back. Quadratic convergence is kept once tangents are
         fresh.
+    line_search : backtrack a full step that increases the residual (steps 1, 1/2, 1/4,
+        1/8 of the Newton step; the first that lowers the relative residual, else the
+        smallest): for iterations that oscillate where contact or yield states flip.
     """
     x = np.array(x0, dtype=np.float64)
     history: list[float] = []
     stale = reuse.get("lu") if reuse is not None else None
     used_stale = False
+    evaluated = None  # the evaluation of x, when a line search already made it
     for it in range(max_iter + 1):
-        r, K, scale, payload = residual(x)
+        r, K, scale, payload = evaluated if evaluated is not None else residual(x)
+        evaluated = None
         scale = scale if scale > 0 and np.isfinite(scale) else 1.0
         rel = float(np.linalg.norm(r) / scale)
         history.append(rel)
         if not np.isfinite(rel) or rel > divergence:
             if reuse is not None:
                 reuse.pop("lu", None)
-            raise ConvergenceError(f"diverged after {it} iteration(s)", history)
+            raise ConvergenceError(f"diverged after {it} iteration(s)", history, iteration=it)
         if rel <= rtol:
             return NewtonResult(x, it, history, payload)
         if it == max_iter:
@@ -105,12 +113,27 @@ def newton(
             STATS["solves"] += 1
             if not np.all(np.isfinite(dx)):
                 raise SolverError("the linear solve produced non-finite values")
-            x = x - dx
         except SolverError as exc:
             if reuse is not None:
                 reuse.pop("lu", None)
             raise ConvergenceError(f"linear solve failed at iteration {it + 1}: {exc}",
-                                   history, singular=True) from exc
+                                   history, singular=True, iteration=it + 1) from exc
+        if line_search:
+            x, evaluated = _backtrack(residual, x, dx, rel)
+        else:
+            x = x - dx
     if reuse is not None:
         reuse.pop("lu", None)
     raise ConvergenceError(f"no convergence in {max_iter} iterations", history)
+
+
+def _backtrack(residual: Callback, x, dx, rel: float):
+    """``x - a dx`` for the first ``a`` in 1, 1/2, 1/4, 1/8 whose relative residual is below
+    ``rel`` (else the last); returns it with its evaluation."""
+    for a in (1.0, 0.5, 0.25, 0.125):
+        trial = x - a * dx
+        ev = residual(trial)
+        sc = ev[2] if ev[2] > 0 and np.isfinite(ev[2]) else 1.0
+        if float(np.linalg.norm(ev[0]) / sc) < rel:
+            break
+    return trial, ev

@@ -6,9 +6,12 @@ external forces (``f_ext``: weight, a held vertical load, ...) stay constant. Ea
 solved by Newton-Raphson from the last converged state, starting from a linear extrapolation
 of the previous increment (without it the first iterate concentrates the whole prescribed
 increment in the elements next to the controlled nodes, and far more points flip between
-elastic and plastic); on failure the increment is halved (bounded), after easy convergence it
-grows. The material state is committed only here, after
-a converged increment. Progress and output go through a callback.
+elastic and plastic); on failure the increment is halved (bounded) and retried with a
+backtracking line search, after easy convergence it grows. Increments may be tied to a grid
+of load factors (they land on every grid point; a cut-back sub-steps inside its interval) and bounded relative to the load factor reached.
+With ``proportional`` one free DOF is controlled under a load of unknown factor (bordered
+Newton; Batoz & Dhatt 1979). The material state is committed only here, after a converged
+increment. Progress and output go through a callback.
 """
 
 from __future__ import annotations
@@ -213,6 +216,7 @@ class Stepper:
         reuse: dict | None = {} if cfg.reuse_factorization else None
         status, message = "ok", "target reached"
         failure: dict | None = None
+        failed_here = 0  # failures since the last converged increment (then: line search)
         while lam < 1.0 - 1e-12:
             target = self._next_target(lam, step, grid)
             dlam = target - lam
@@ -231,9 +235,10 @@ class Stepper:
                 callback_fn = residual_callback(model, cmap, f_ext, states)
             try:
                 res = newton(callback_fn, guess, rtol=cfg.rtol, max_iter=cfg.max_iterations,
-                             backend=cfg.backend, reuse=reuse)
+                             backend=cfg.backend, reuse=reuse, line_search=failed_here > 0)
             except ConvergenceError as exc:
                 cutbacks += 1
+                failed_here += 1
                 log.debug("increment %.3g failed at lam %.4f: %s", dlam, lam, exc)
                 step = 0.5 * dlam
                 if step < cfg.min_step:
@@ -241,10 +246,12 @@ class Stepper:
                     message = (f"no convergence at load factor {lam:.4f} with step "
                                f"{step:.2e}: {exc}")
                     failure = {"lam": lam, "step": dlam, "singular": exc.singular,
-                               "error": str(exc)}
+                               "iteration": exc.iteration, "error": str(exc),
+                               "history": exc.history}
                     break
                 continue
             # converged: commit
+            failed_here = 0
             u_full, trial, generalized = res.payload
             velocity = (res.x - x) / dlam
             states, lam = trial, target

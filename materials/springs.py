@@ -79,7 +79,9 @@ def coulomb_update(d: NDArray[np.float64], state_n: ContactState, k_s, k_n, cohe
     2. ``sigma* > t_c``: the interface opens: ``sigma = t_c``, ``tau = 0`` (an open gap carries
        no shear); tangent zero;
     3. else ``|tau*| > tau_max(sigma*)``: slip: ``tau = sign(tau*) tau_max``, sigma unchanged,
-       tangent d tau / d n = -sign(tau*) tan(delta) k_n (unsymmetric);
+       tangent d tau / d n = -sign(tau*) tan(delta) k_n (unsymmetric); ``tau_max =
+       min(c - sigma tan(delta), t_c - sigma)``: a cohesive interface loses its strength along
+       a 45 degree line as sigma approaches the cut-off (continuous tractions at opening);
     4. else elastic.
 
     Returns tractions ``(m, 2)``, tangent ``(m, 2, 2)`` and the trial state.
@@ -91,14 +93,21 @@ def coulomb_update(d: NDArray[np.float64], state_n: ContactState, k_s, k_n, cohe
     C[:, 0, 0], C[:, 1, 1] = k_s, k_n
     is_open = sig > tension_cutoff
     sig = np.where(is_open, tension_cutoff, sig)
-    tau_max = np.where(is_open, 0.0, np.maximum(cohesion - sig * tan_delta, 0.0))
+    # near the cut-off the shear strength falls to zero along tau = t_c - sigma (45 deg), so
+    # the traction is continuous when the interface opens (a cohesive interface would
+    # otherwise drop from c to 0 and Newton iterations cycle between the two states)
+    coulomb = cohesion - sig * tan_delta
+    ramp = tension_cutoff - sig
+    on_ramp = ramp < coulomb
+    tau_max = np.where(is_open, 0.0, np.maximum(np.where(on_ramp, ramp, coulomb), 0.0))
+    slope = np.where(on_ramp, 1.0, tan_delta)
     slip = np.abs(tau) > tau_max
     sign = np.sign(tau)
     tau = np.where(slip, sign * tau_max, tau)
     C[is_open] = 0.0
     sl = slip & ~is_open
     C[sl, 0, 0] = 0.0
-    C[sl, 0, 1] = -(sign * tan_delta * k_n)[sl]
+    C[sl, 0, 1] = -(sign * slope * k_n)[sl]
     C[is_open & slip, :, :] = 0.0
     new_p = state_n.d_p.copy()
     safe_ks = np.where(k_s > 0, k_s, 1.0)

@@ -18,7 +18,8 @@ from typing import Annotated, Any, Literal
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 __all__ = ["AnalysisSettings", "SoilLayer", "Soil", "Cap", "PileRing", "Piles", "Loading",
-           "Requirements", "Keypoints", "DesignStrength", "Design", "ROTATION_CAP", "design_from_dict", "load_design",
+           "Requirements", "Keypoints", "DesignStrength", "Design", "ROTATION_CAP",
+           "design_from_dict", "load_design",
            "DesignError", "demo_design", "SCHEMA_VERSION"]
 
 SCHEMA_VERSION = "1"

@@ -14,7 +14,9 @@ from numpy.typing import ArrayLike
 #: rotation of the initial secant stiffness of a curve, rad (a pushover lands on it)
 INITIAL_ROTATION = 1e-5
 
-__all__ = ["KeyPoint", "Plateau", "plateau", "plateau_measure", "INITIAL_ROTATION", "analyse_curve", "secant_at_rotation", "rotation_at_moment",
+__all__ = ["KeyPoint", "Plateau", "plateau", "plateau_measure", "INITIAL_ROTATION",
+           "PLATEAU_TANGENT", "PLATEAU_LOG_SLOPE", "PLATEAU_WINDOW", "PLATEAU_CONFIRM",
+           "analyse_curve", "secant_at_rotation", "rotation_at_moment",
            "moment_at_rotation", "bilinear_equal_energy", "tangent_intersection",
            "ultimate_plateau", "hyperbolic_fit"]
 

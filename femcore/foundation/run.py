@@ -29,7 +29,6 @@ from .keypoints import (
     moment_at_rotation,
     ultimate_plateau,
 )
-from .strength import factored_design
 from .records import (
     CAUTION,
     DynamicStiffness,
@@ -40,6 +39,7 @@ from .records import (
 )
 from .requirements import check_requirements
 from .stages import StageLog, run_stages, stages_for
+from .strength import factored_design
 
 __all__ = ["Result", "run_design", "run_built", "run_harmonic", "prepare",
            "RESULT_SCHEMA_VERSION"]
@@ -241,9 +241,10 @@ def _pushover_outcome(built: BuiltModel, res: StepResult, curve: dict, kp: dict)
     th = float(rot[-1]) if rot.size else 0.0
     m = float(mom[-1]) if mom.size else 0.0
     where = f"at rotation {th * 1e3:.3g} mrad, M = {m / 1e3:.4g} MNm"
-    if fail.get("singular") or flat:
-        why = ("the tangent stiffness is singular" if fail.get("singular") else
-               "no equilibrium beyond it, on a flat curve")
+    early_singular = bool(fail.get("singular")) and (fail.get("iteration") or 99) <= 2
+    if early_singular or flat:
+        why = ("the tangent stiffness of the state reached is singular" if early_singular
+               else "no equilibrium beyond it, on a flat curve")
         k = int(np.argmax(mom)) if mom.size else 0
         kp["ultimate"] = KeyPoint(
             "ultimate", float(mom[k]) if mom.size else 0.0, "kNm",
@@ -253,21 +254,42 @@ def _pushover_outcome(built: BuiltModel, res: StepResult, curve: dict, kp: dict)
              "confirmed": True, "end_rotation": th, "mechanism": True})
         return "ok", f"capacity reached: mechanism {where} ({why})"
     step = fail.get("step", 0.0) * built.design.loading.rotation_max
-    return "diverged", (f"pushover stage: no convergence {where} after {res.cutbacks} "
-                        f"cut-back(s), the last increment {step * 1e3:.2g} mrad; tried: "
-                        "halving the increment down to the minimum, up to 25 Newton "
-                        "iterations each from a linear extrapolation (the curve was still "
-                        "rising: not a mechanism)")
+    return "diverged", (f"pushover stage: no convergence {where}, the curve still rising "
+                        f"(not a mechanism), after {res.cutbacks} cut-back(s) down to an "
+                        f"increment of {step * 1e3:.2g} mrad; tried: halving the increment, "
+                        "up to 25 Newton iterations each from a linear extrapolation, a "
+                        "backtracking line search on the retries; "
+                        + _residual_pattern(fail.get("history") or [], fail))
+
+
+def _residual_pattern(history: list[float], fail: dict) -> str:
+    """What the last Newton attempt did, in words."""
+    if not history:
+        return "no iterations recorded"
+    low = min(history)
+    if fail.get("singular"):
+        return (f"the last attempt reached an iterate with a singular tangent at iteration "
+                f"{fail.get('iteration')} (lowest relative residual {low:.1e})")
+    if low < 10 * 1e-6 and history[-1] > 10 * low:
+        return (f"the residual came down to {low:.1e} (tolerance 1e-6) and jumped back to "
+                f"{history[-1]:.1e}: points flip between states (contact, slip or yield)")
+    return (f"the residual stalled between {low:.1e} and {max(history):.1e} "
+            "(tolerance 1e-6)")
 
 
 def _initial_stage_failure(built: BuiltModel, failed) -> tuple[str, str]:
-    """(status, message) of a weight or vertical-load stage that did not converge: a
-    singular tangent is a mechanism under that load (status ok, no moment capacity)."""
+    """(status, message) of a weight or vertical-load stage that did not converge: under
+    load control a singular tangent is a mechanism under that load (status ok, no moment
+    capacity)."""
     fail = failed.result.failure or {}
     lam = fail.get("lam", 0.0)
     if fail.get("singular") and failed.name == "vertical load":
         return "ok", (f"capacity reached: mechanism under the vertical load alone at {lam:.0%} "
                       f"of V = {built.design.loading.vertical:g} kN (no moment capacity)")
+    if fail.get("singular") and failed.name == "self-weight":
+        return "ok", (f"capacity reached: mechanism under the weights alone at {lam:.0%} of "
+                      "them (the piles and soil cannot carry the cap, the backfill and the "
+                      "soil's own weight; no moment capacity)")
     return "diverged", (f"{failed.name} stage: no convergence at {lam:.0%} of the load after "
                         f"{failed.result.cutbacks} cut-back(s) ({failed.result.message})")
 
@@ -299,7 +321,7 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
             failed is not None and failed is not final:  # an initial stage failed: no curve
         status, message = _initial_stage_failure(built, failed)
         kp0 = {} if status != "ok" else {"ultimate": KeyPoint(
-            "ultimate", 0.0, "kNm", "mechanism under the vertical load alone", {},
+            "ultimate", 0.0, "kNm", f"mechanism under the {failed.name} stage's load", {},
             {"rotation": 0.0, "censored": False, "mechanism": True})}
         return Result(status, message, {}, kp0, {}, [], info,
                       {"total_s": t1 - t0, "build_s": built.meta.get("build_s", 0.0)},

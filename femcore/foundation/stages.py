@@ -31,6 +31,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..initial_stress import apply_k0, profile_loads
+from ..interfaces import SpringBlock
 from ..model import SolidBlock
 from ..stepping import Stepper, StepRecord, StepResult, StepSettings
 from .build import BuiltModel, backfill_load, greenfield_traction
@@ -175,6 +176,9 @@ class VerticalLoad:
 #: Increments of the pushover above this rotation stay below ``PUSHOVER_RELATIVE`` times the
 #: rotation reached (rad): the curve keeps points through the knee and beyond.
 PUSHOVER_RELATIVE_FROM = 5e-4
+#: fraction of the elastic stiffness kept in the tangent of yielded pile springs during the
+#: pushover (:class:`~femcore.interfaces.SpringBlock`); forces are unchanged
+SPRING_RESIDUAL_TANGENT = 1e-6
 PUSHOVER_RELATIVE = 0.2
 
 
@@ -245,7 +249,23 @@ class Pushover:
             m = rec.force[0] if loading.control == "rotation" else rec.force[0] * h
             return rule(rec, float(rec.monitor[2] - theta0), float(m))
 
-        res = Stepper(built.model, cmap, state.f_ext, [TH], [target], monitor_dofs=[U, W, TH],
+        springs = [b for b in built.model.blocks if isinstance(b, SpringBlock)]
+        for b in springs:  # regular tangents where yielded springs leave free local modes
+            b.residual_tangent = SPRING_RESIDUAL_TANGENT
+        try:
+            res = self._push(built, state, cmap, f_ref, target, grid, stop, progress,
+                             (U, W, TH))
+        finally:
+            for b in springs:
+                b.residual_tangent = 0.0
+        if res.message == "stopping criterion met":
+            res.message = "capacity reached: the moment-rotation curve holds its plateau"
+        return StageState(res.u, res.states, state.f_ext), res
+
+    def _push(self, built, state, cmap, f_ref, target, grid, stop, progress, dofs):
+        loading = built.design.loading
+        U, W, TH = dofs
+        return Stepper(built.model, cmap, state.f_ext, [TH], [target], monitor_dofs=[U, W, TH],
                       settings=self.settings or pushover_steps(loading.initial_increment
                                                                / target),
                       observer=pile_observer(built),
@@ -254,9 +274,6 @@ class Pushover:
                       relative_from=PUSHOVER_RELATIVE_FROM / target,
                       proportional=f_ref).run(
             u0=state.u, states0=state.states, callback=progress)
-        if res.message == "stopping criterion met":
-            res.message = "capacity reached: the moment-rotation curve holds its plateau"
-        return StageState(res.u, res.states, state.f_ext), res
 
 
 @dataclass(frozen=True)

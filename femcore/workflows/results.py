@@ -2,7 +2,8 @@
 
 ``result.json`` is exactly :meth:`femcore.foundation.run.Result.to_dict`: schema versions,
 status, curve (arrays), key points (value, unit, method, parameters), dynamic stiffness,
-requirement checks (value, required, pass/fail, margin), pile envelopes (per row), model
+the elastic 3D stiffness, the design-strength pushover (factors, status, key points,
+curve), requirement checks (value, required, pass/fail, margin), pile envelopes (per row), model
 (nodes, DOFs, elements, slice length, rows, versions), stages, timings and the caution.
 """
 

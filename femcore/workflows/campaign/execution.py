@@ -80,9 +80,21 @@ def record_from_result(d: dict, attempts: int, seconds: float,
     if status not in FINISHED:
         return RunRecord("error", f"unknown run status {status!r}", attempts, seconds)
     reqs = d.get("requirements")
+    kps = {k: (v or {}).get("value") for k, v in (d.get("keypoints") or {}).items()}
+    labels = [("", d.get("keypoints") or {})]
+    ds = d.get("design_strength")
+    if ds:
+        kps["design_strength.ultimate"] = ((ds.get("keypoints") or {}).get("ultimate")
+                                           or {}).get("value")
+        labels.append(("design_strength.", ds.get("keypoints") or {}))
+    for prefix, kp in labels:  # where the capacity was read, and whether it is a bound
+        extra = (kp.get("ultimate") or {}).get("extra") or {}
+        if "censored" in extra:
+            kps[prefix + "ultimate_rotation"] = extra.get("rotation")
+            kps[prefix + "ultimate_censored"] = float(bool(extra["censored"]))
     return RunRecord(
         status, d.get("message") or "", attempts, seconds,
-        keypoints={k: (v or {}).get("value") for k, v in (d.get("keypoints") or {}).items()},
+        keypoints=kps,
         requirements=None if reqs is None else
         {k: {f: (v or {}).get(f) for f in _REQUIREMENT_FIELDS} for k, v in reqs.items()},
         dynamic=d.get("dynamic"),

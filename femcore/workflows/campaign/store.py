@@ -19,8 +19,8 @@ loses at most the runs in flight and a new ``run`` skips the finished ids (resum
 written before the requirement and dynamic columns existed opens unchanged: the missing
 columns are added (NULL for the old rows).
 
-Statuses: ``ok``, ``censored`` (no plateau within the rotation range: the ultimate moment is
-a lower bound), ``diverged``, ``invalid_input`` (never run; the reason is the message),
+Statuses: ``ok`` (the capacity reached: a plateau or a mechanism), ``censored`` (no plateau
+up to the rotation cap: the ultimate moment is a lower bound), ``diverged``, ``invalid_input`` (never run; the reason is the message),
 ``timeout`` and ``error``.
 """
 
