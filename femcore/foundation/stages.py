@@ -184,17 +184,22 @@ PUSHOVER_RELATIVE = 0.2
 
 def rotation_grid(design, extra: Sequence[float] = ()) -> NDArray[np.float64]:
     """Rotations (rad, from the start of the pushover) on which pushover increments land:
-    the initial-secant rotation, the key-point rotations, a geometric grid of ratio
-    1 + ``PUSHOVER_RELATIVE`` from ``PUSHOVER_RELATIVE_FROM`` and the rotation cap."""
+    the initial-secant rotation, the key-point rotations and the rotation cap, and from
+    ``PUSHOVER_RELATIVE_FROM`` on a geometric fill between consecutive ones with ratios
+    of at most 1 + ``PUSHOVER_RELATIVE`` (so that a step of the largest allowed size goes
+    from grid point to grid point, key points included)."""
     cap = design.loading.rotation_max
-    n = int(np.ceil(np.log(cap / PUSHOVER_RELATIVE_FROM) / np.log1p(PUSHOVER_RELATIVE))) \
-        if cap > PUSHOVER_RELATIVE_FROM else 0
-    geo = PUSHOVER_RELATIVE_FROM * (1 + PUSHOVER_RELATIVE) ** np.arange(n + 1)
     keys = np.concatenate([[INITIAL_ROTATION], design.keypoints.rotations, extra, [cap]])
-    near = np.abs(np.log(geo[:, None] / keys[None, :])).min(axis=1) < \
-        0.3 * np.log1p(PUSHOVER_RELATIVE)  # no sliver increments beside a key rotation
-    pts = np.concatenate([keys, geo[~near]])
-    return np.unique(pts[(pts > 0) & (pts <= cap)])
+    keys = np.unique(keys[(keys > 0) & (keys <= cap)])
+    anchors = np.unique(np.concatenate([keys[keys >= PUSHOVER_RELATIVE_FROM],
+                                        [PUSHOVER_RELATIVE_FROM] if cap >
+                                        PUSHOVER_RELATIVE_FROM else []]))
+    pts = [keys]
+    for lo, hi in zip(anchors[:-1], anchors[1:], strict=True):
+        n = int(np.ceil(np.log(hi / lo) / np.log1p(PUSHOVER_RELATIVE) - 1e-9))
+        pts.append(lo * (hi / lo) ** (np.arange(1, n + 1) / n))
+    pts.append(anchors)
+    return np.unique(np.concatenate(pts))
 
 
 def plateau_stop(k_index: int = 0):

@@ -93,6 +93,14 @@ def _summary_rows(design, built) -> list[str]:
             f"{len(design.piles.rings)} rings -> {len(built.rows)} rows",
             f"slice length  L = {built.slice_length:.3f} m ({_slice_note(built)})",
             f"model         {built.model.mesh.n_nodes} nodes, {built.model.n_dofs} DOFs"]
+    lo = design.loading
+    if lo.control != "settlement":
+        stop = "until the plateau holds, at most" if lo.stop_at_plateau else "to"
+        rows.append(f"pushover      {lo.control} control, {stop} {lo.rotation_max:g} rad")
+    if design.design_strength is not None:
+        f = design.design_strength
+        rows.append(f"design str.   second pushover with s_u / {f.su:g}, c' / {f.c:g}, "
+                    f"tan phi' / {f.tan_phi:g}, pile resistances / {f.pile_resistance:g}")
     for pr in built.rows:
         rows.append(f"  row x = {pr.row.x:7.3f} m   n = {pr.row.count:4.1f}   "
                     f"rake {pr.row.rake:.4f}")
