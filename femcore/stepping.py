@@ -8,10 +8,11 @@ of the previous increment (without it the first iterate concentrates the whole p
 increment in the elements next to the controlled nodes, and far more points flip between
 elastic and plastic); on failure the increment is halved (bounded) and retried with a
 backtracking line search, after easy convergence it grows. Increments may be tied to a grid
-of load factors (they land on every grid point; a cut-back sub-steps inside its interval) and bounded relative to the load factor reached.
-With ``proportional`` one free DOF is controlled under a load of unknown factor (bordered
-Newton; Batoz & Dhatt 1979). The material state is committed only here, after a converged
-increment. Progress and output go through a callback.
+of load factors (they land on every grid point; a cut-back sub-steps inside its interval)
+and bounded relative to the load factor reached. With ``proportional`` one free DOF is
+controlled under a load of unknown factor (bordered Newton; Batoz & Dhatt 1979). The
+material state is committed only here, after a converged increment. Progress and output go
+through a callback.
 """
 
 from __future__ import annotations

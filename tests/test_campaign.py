@@ -24,7 +24,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from femcore.foundation.design import design_from_dict
+from femcore.foundation.design import demo_design, design_from_dict
 from femcore.foundation.dynamic import dynamic_stiffness
 from femcore.foundation.run import run_design
 from femcore.workflows.campaign import (
@@ -46,6 +46,7 @@ from femcore.workflows.campaign.space import space_from_dict
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "examples" / "fennwick_fw07.toml"
+FAST = "[run]\ndesign_strength = false\n"
 SMALL = ROOT / "examples" / "small_group_springs.toml"
 
 
@@ -140,9 +141,10 @@ def test_formulas_are_bounded(formula, why):
 
 @pytest.fixture(scope="module")
 def local_store(tmp_path_factory):
+    """Eight coarse samples of the demo space, characteristic pushover only (FAST)."""
     tmp = tmp_path_factory.mktemp("camp")
     store = tmp / "local.sqlite"
-    summary = run_campaign(_space(tmp), store, workers=2, quiet=True)
+    summary = run_campaign(_space(tmp, extra=FAST), store, workers=2, quiet=True)
     return tmp, store, summary
 
 
@@ -155,6 +157,23 @@ def test_local_campaign_runs_every_sample(local_store):
     r = rows[0]
     assert len(r["curve"]["rotation"]) == 40 and r["provenance"]["element"] == "T6"
     assert r["keypoints"]["initial_stiffness"] > 0
+    # every capacity label says whether it is a bound; no factored run was asked for
+    assert all(x["keypoints"]["ultimate_censored"] in (0.0, 1.0) for x in rows)
+    assert all("design_strength.ultimate" not in x["keypoints"] for x in rows)
+
+
+def test_record_carries_the_design_strength_capacity():
+    """A base design with [design_strength]: the record's labels are the result's own
+    values (the factored ultimate, its rotation, the censored flags) [identity]."""
+    from femcore.workflows.campaign.execution import record_from_result
+
+    d = run_design(demo_design(support="springs"), dynamic=False).to_dict()
+    rec = record_from_result(d, 1, 1.0, 0.05)
+    ds = d["design_strength"]["keypoints"]["ultimate"]
+    assert rec.keypoints["design_strength.ultimate"] == ds["value"]
+    assert rec.keypoints["design_strength.ultimate_rotation"] == ds["extra"]["rotation"]
+    assert rec.keypoints["ultimate_censored"] == 0.0
+    assert rec.keypoints["ultimate"] == d["keypoints"]["ultimate"]["value"]
 
 
 def test_dask_local_cluster_gives_identical_results(local_store, tmp_path):
@@ -163,7 +182,8 @@ def test_dask_local_cluster_gives_identical_results(local_store, tmp_path):
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                   host="127.0.0.1", dashboard_address=None) as cluster:
         other = tmp_path / "dask.sqlite"
-        run_campaign(_space(tmp), other, scheduler=cluster.scheduler_address, quiet=True)
+        run_campaign(_space(tmp, extra=FAST), other, scheduler=cluster.scheduler_address,
+                     quiet=True)
     a = {r["sample_id"]: r for r in Store(store).rows()}
     b = {r["sample_id"]: r for r in Store(other).rows()}
     assert a.keys() == b.keys()
@@ -176,7 +196,7 @@ def test_dask_local_cluster_gives_identical_results(local_store, tmp_path):
 def test_resume_skips_finished_rows(local_store):
     tmp, store, _ = local_store
     before = {r["sample_id"]: r["finished_at"] for r in Store(store).rows()}
-    summary = run_campaign(_space(tmp), store, workers=2, quiet=True)
+    summary = run_campaign(_space(tmp, extra=FAST), store, workers=2, quiet=True)
     after = {r["sample_id"]: r["finished_at"] for r in Store(store).rows()}
     assert summary["finished"] == 8 and before == after
 
@@ -213,7 +233,7 @@ def test_invalid_samples_are_recorded_not_run(tmp_path):
 
 
 def test_sigkill_then_resume_loses_nothing(tmp_path):
-    space = _space(tmp_path, size=8)  # coarse continuum runs (~1 s): killed mid-campaign
+    space = _space(tmp_path, size=8, extra=FAST)  # coarse continuum runs: killed mid-way
     store = tmp_path / "crash.sqlite"
     env = {**os.environ, "PYTHONPATH": str(ROOT)}
     cmd = [sys.executable, "-m", "femcore", "campaign", "run", str(space), "--store",

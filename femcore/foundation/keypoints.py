@@ -252,8 +252,8 @@ def analyse_curve(theta, M, rotations=(), moments=(), initial_rotation: float = 
             "chord_window": PLATEAU_WINDOW, "confirm": PLATEAU_CONFIRM}
     if pl.rotation is not None and (pl.confirmed or not require_confirmed):
         out["ultimate"] = KeyPoint("ultimate", pl.moment, "kNm",
-                                   "plateau: chord tangent below 2 % of the initial or 10 % "
-                                   "of the secant stiffness (crossing interpolated)", rule,
+                                   "plateau: chord tangent < 2 % of K0 or < 10 % of the "
+                                   "secant, interpolated", rule,
                                    {"rotation": pl.rotation, "censored": False,
                                     "confirmed": pl.confirmed, "end_rotation": float(th[-1])})
     else:

@@ -349,7 +349,7 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
         status, message = _pushover_outcome(built, res, curve, kp)
         strength = None
         if factored and design.design_strength is not None:
-            strength = _design_strength_run(built, elastic, settings)
+            strength = _design_strength_run(built, elastic, settings, progress)
         if dynamic:
             dyn = dynamic_stiffness(design, slice_length=built.slice_length)
         req = check_requirements(design, curve["rotation"], curve["moment"], kp,
@@ -376,7 +376,7 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     return out
 
 
-def _design_strength_run(built: BuiltModel, elastic, settings) -> dict:
+def _design_strength_run(built: BuiltModel, elastic, settings, progress=None) -> dict:
     """The factored pushover of a design with ``[design_strength]``: the same mesh and
     slice length, the soil strengths divided by the factors (:func:`factored_design`)."""
     t = time.perf_counter()
@@ -385,7 +385,8 @@ def _design_strength_run(built: BuiltModel, elastic, settings) -> dict:
     fb = build_model(fd, slice_length=built.slice_length,
                      pile_resistance=design.design_strength.pile_resistance)
     fb.meta.update(slice_calibration=built.meta.get("slice_calibration"))
-    sub = run_built(fb, settings=settings, dynamic=False, elastic=elastic, factored=False)
+    sub = run_built(fb, progress, settings=settings, dynamic=False, elastic=elastic,
+                    factored=False)
     ult = sub.keypoints.get("ultimate")
     keep = ("ultimate", "yield_equal_energy", "yield_tangents", "ultimate_hyperbolic")
     record = {"factors": design.design_strength.model_dump(), "status": sub.status,

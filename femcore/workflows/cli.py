@@ -165,7 +165,7 @@ def _print_summary(result, out: Path, t_total: float) -> None:
             margin = "" if chk.margin is None else f"   margin {100 * chk.margin:+7.1f} %"
             if chk.extra.get("lower_bound") is not None:
                 margin = f"   capacity at least {chk.extra['lower_bound'] / 1e3:.2f} MNm"
-            print(f"  {name:28s} {chk.verdict:11s}{margin}")
+            print(f"  {name:28s} {chk.verdict:11s}{margin}".rstrip())
     tm = result.timings
     if result.model.get("geometry") == "harmonic":
         print(f"timings       {t_total:.1f} s total (harmonic solves "
@@ -217,9 +217,14 @@ def _cmd_run(args: argparse.Namespace) -> int:
         print(f"{'settlement (mm)' if vertical else 'rotation (mrad)':>16s} "
               f"{'V (MN)' if vertical else 'moment (MNm)':>13s} {'iterations':>10s}")
 
+    last = [float("-inf")]
+
     def progress(rec):
         if not args.quiet and rec.monitor.size:
             first = -rec.monitor[-1] if vertical else rec.monitor[-1]
+            if first < last[0]:  # the next pushover (design strengths) starts
+                print("design-strength pushover (factored soil strengths)")
+            last[0] = first
             print(f"{first * 1e3:16.4f} {_moment(rec, built) / 1e3:13.2f} "
                   f"{rec.iterations:10d}", flush=True)
 

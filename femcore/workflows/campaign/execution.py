@@ -104,7 +104,7 @@ def record_from_result(d: dict, attempts: int, seconds: float,
 
 
 def run_sample(design_data: dict, time_limit: float, retries: int,
-               dynamic: bool = True) -> RunRecord:
+               dynamic: bool = True, design_strength: bool = True) -> RunRecord:
     """Run one design (in a worker). Never raises: every outcome is a :class:`RunRecord`."""
     t0 = time.perf_counter()
     attempts = 0
@@ -117,6 +117,8 @@ def run_sample(design_data: dict, time_limit: float, retries: int,
         except DesignError as exc:
             return RunRecord("invalid_input", "; ".join(exc.problems), 0,
                              time.perf_counter() - t0)
+        if not design_strength:
+            design = design.model_copy(update={"design_strength": None})
 
         def guard(_rec: Any) -> None:
             if time.perf_counter() - t0 > time_limit:
@@ -246,7 +248,7 @@ def run_campaign(space_path: str | Path, store_path: str | Path, workers: int | 
         stream = sys.stderr
         t0 = time.perf_counter()
         n_done = n_failed = 0
-        args = (space.time_limit, space.retries, space.dynamic)
+        args = (space.time_limit, space.retries, space.dynamic, space.design_strength)
         for s, data, rec in _dispatch(jobs, args, workers, scheduler):
             store.add(s, data, rec, _provenance(data))
             n_done += 1

@@ -27,6 +27,7 @@ A space file (TOML) names a base design and varies some of its values::
     time_limit = 300                     # s per run, > 0 and <= 86400 (checked per increment)
     retries = 1                          # 0 to 5: a diverged run is retried, first step / 4
     dynamic = true                       # false skips the small-strain stiffness (faster)
+    design_strength = true               # false skips the base's [design_strength] pushover
 
 Every key is checked by a pydantic schema (``extra="forbid"``: a mistyped key anywhere is
 refused, :func:`space_json_schema` exports it as JSON Schema). Before any run the space is
@@ -170,6 +171,10 @@ class RunSpec(_Spec):
                           "smaller first increment")
     dynamic: bool = _field(True, allowed="true or false", meaning="compute the dynamic "
                            "(small-strain) stiffness of every sample")
+    design_strength: bool = _field(True, allowed="true or false", meaning="run the base "
+                                   "design's [design_strength] pushover for every sample "
+                                   "(false: the characteristic pushover only, about half "
+                                   "the time)")
 
 
 class SpaceSpec(_Spec):
@@ -283,6 +288,7 @@ class Space:
     time_limit = property(lambda self: self.spec.run.time_limit)
     retries = property(lambda self: self.spec.run.retries)
     dynamic = property(lambda self: self.spec.run.dynamic)
+    design_strength = property(lambda self: self.spec.run.design_strength)
 
     @property
     def planned(self) -> int:

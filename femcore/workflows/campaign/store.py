@@ -20,8 +20,8 @@ written before the requirement and dynamic columns existed opens unchanged: the 
 columns are added (NULL for the old rows).
 
 Statuses: ``ok`` (the capacity reached: a plateau or a mechanism), ``censored`` (no plateau
-up to the rotation cap: the ultimate moment is a lower bound), ``diverged``, ``invalid_input`` (never run; the reason is the message),
-``timeout`` and ``error``.
+up to the rotation cap: the ultimate moment is a lower bound), ``diverged``,
+``invalid_input`` (never run; the reason is the message), ``timeout`` and ``error``.
 """
 
 from __future__ import annotations
