@@ -325,7 +325,7 @@ class Design(_Model):
         if lo.control == "lever" and lo.lever_arm is not None and lo.lever_arm < self.cap.diameter:
             problems.append(f"loading.lever_arm = {lo.lever_arm} m is too short to control the "
                             f"rotation: need lever_arm >= cap.diameter = {self.cap.diameter} m "
-                            "(H = M/h; below it the horizontal load governs: a sliding check, "
+                            "(H = M/h, below it the horizontal load governs: a sliding check, "
                             "not a moment-rotation pushover)")
         if lo.control != "settlement" and self.keypoints.rotations and \
                 max(self.keypoints.rotations) > lo.rotation_max:

@@ -220,9 +220,10 @@ def _initial_from_harmonic(kp: dict[str, KeyPoint], elastic: ElasticStiffness) -
 def _pushover_outcome(built: BuiltModel, res: StepResult, curve: dict, kp: dict) -> tuple:
     """(status, message) of a finished pushover, and the ultimate key point fixed up for a
     mechanism. A failed increment is a mechanism (status ok, the curve kept, the ultimate
-    its last moment) when the tangent was singular or the curve was already on its plateau
-    slope (chord tangent below 2 % of the initial stiffness); otherwise a divergence, with
-    the stage, the rotation and moment reached and what was tried."""
+    its largest moment) when the tangent of the state reached was singular (in the first
+    two iterations) or the last increment was already flat (tangent below 2 % of the
+    initial stiffness); otherwise a divergence, with the stage, the rotation and moment
+    reached, what was tried and what the residual did."""
     if res.status != "diverged":
         ult = kp.get("ultimate")
         if ult is not None and ult.extra.get("censored"):
@@ -249,7 +250,8 @@ def _pushover_outcome(built: BuiltModel, res: StepResult, curve: dict, kp: dict)
         kp["ultimate"] = KeyPoint(
             "ultimate", float(mom[k]) if mom.size else 0.0, "kNm",
             "mechanism: the largest moment before the foundation could carry no more "
-            "(held vertical load and H = M/h)", {},
+            "(held vertical load and " + ("H = M/h)" if built.design.loading.control ==
+                                          "lever" else "held H)"), {},
             {"rotation": float(rot[k]) if rot.size else 0.0, "censored": False,
              "confirmed": True, "end_rotation": th, "mechanism": True})
         return "ok", f"capacity reached: mechanism {where} ({why})"
