@@ -158,6 +158,11 @@ BAD_INPUTS = [
     (("loading.rotation_max", 0.004), "loading.rotation_max = 0.004 rad is below"),
     (("design_strength.su", 0.9), "design_strength.su"),
     (("design_strength.tan_phi", 0.5), "design_strength.tan_phi"),
+    (("cap.diameter", "22"), "cap.diameter: expected a number (> 2, <= 60), got '22'"),
+    (("soil.layers.0.thickness", True), "soil.layers.0.thickness: expected a number"),
+    (("piles.rings.1.count", "16"), "piles.rings.1.count: expected a number (>= 1, <= 200)"),
+    (("requirements.static_stiffness_moment", ...), "static_stiffness_min needs "
+     "static_stiffness_moment"),
 ]
 
 
@@ -170,6 +175,34 @@ def test_bad_input_exit_2_names_the_field(tmp_path, capsys, change, field):
     assert code == 2
     assert field in err, err
     assert "Traceback" not in err
+
+
+@pytest.mark.parametrize("path,value", [("loading.horizontal", float("nan")),
+                                        ("loading.vertical", float("inf")),
+                                        ("cap.E", float("-inf"))])
+def test_nan_and_inf_are_refused(tmp_path, capsys, path, value):
+    """TOML's nan / inf in any number: exit 2 naming the field (a finite number needed)."""
+    bad = tmp_path / "nan.toml"
+    bad.write_text(_toml(_bad((path, value))))
+    assert f"= {value!r}" in bad.read_text()  # written as TOML's own nan / inf
+    assert cli.main(["check", str(bad)]) == 2
+    err = capsys.readouterr().err
+    assert path in err and "finite number" in err and "Traceback" not in err
+
+
+def test_byte_order_mark_folder_and_non_utf8(tmp_path, capsys):
+    """A UTF-8 byte-order mark is read as text; a folder and a non-UTF-8 file are named
+    as such (exit 2)."""
+    bom = tmp_path / "bom.toml"
+    bom.write_bytes(b"\xef\xbb\xbf" + DEMO.read_bytes())
+    assert cli.main(["check", str(bom)]) == 0
+    capsys.readouterr()
+    assert cli.main(["check", str(tmp_path)]) == 2
+    assert "is a folder, not a design file" in capsys.readouterr().err
+    latin = tmp_path / "latin.toml"
+    latin.write_bytes(DEMO.read_bytes().replace(b"Fennwick", b"Fennw\xefck"))
+    assert cli.main(["check", str(latin)]) == 2
+    assert "not UTF-8 text" in capsys.readouterr().err
 
 
 def test_malformed_and_missing_files(tmp_path, capsys):

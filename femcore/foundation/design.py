@@ -40,8 +40,58 @@ class DesignError(ValueError):
         super().__init__("\n".join(self.problems))
 
 
+def _is_number_type(annotation) -> bool:
+    """True for float / int annotations (also inside Optional and Annotated)."""
+    import typing
+
+    if annotation in (float, int):
+        return True
+    args = typing.get_args(annotation)
+    origin = typing.get_origin(annotation)
+    if origin is typing.Annotated:
+        return _is_number_type(args[0])
+    if origin in (typing.Union, getattr(__import__("types"), "UnionType", None)):
+        options = [a for a in args if a is not type(None)]
+        return bool(options) and all(_is_number_type(a) for a in options)
+    return False
+
+
+def _bounds(field) -> str:
+    """`` (> 0, <= 60)``-style bounds of a field, from its constraints."""
+    import typing
+
+    marks = list(field.metadata)
+    ann = field.annotation
+    for a in typing.get_args(ann) or ():
+        if typing.get_origin(a) is typing.Annotated:
+            for m in typing.get_args(a)[1:]:
+                marks += list(getattr(m, "metadata", [m]))
+    out = []
+    for m in marks:
+        for attr, sym in (("gt", ">"), ("ge", ">="), ("lt", "<"), ("le", "<=")):
+            v = getattr(m, attr, None)
+            if v is not None:
+                out.append(f"{sym} {v:g}")
+    return f" ({', '.join(out)})" if out else ""
+
+
 class _Model(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, validate_default=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, validate_default=True,
+                              allow_inf_nan=False)
+
+    @model_validator(mode="before")
+    @classmethod
+    def _numbers_are_numbers(cls, data: Any) -> Any:
+        """A boolean or a string where a number belongs is refused (``true`` would become
+        1, ``"22"`` 22.0 silently)."""
+        if isinstance(data, dict):
+            bad = [f"{k}: expected a number{_bounds(cls.model_fields[k])}, got {v!r}"
+                   for k, v in data.items()
+                   if k in cls.model_fields and isinstance(v, (bool, str))
+                   and _is_number_type(cls.model_fields[k].annotation)]
+            if bad:
+                raise ValueError("; ".join(bad))
+        return data
 
 
 class AnalysisSettings(_Model):
@@ -225,6 +275,17 @@ class Requirements(_Model):
     no_tension_moment: Pos | None = Field(None, description="moment up to which no pile may "
                                           "be in tension, kNm")
 
+    @model_validator(mode="after")
+    def _companions(self) -> Requirements:
+        if self.static_stiffness_min is not None and self.static_stiffness_moment is None:
+            raise ValueError("static_stiffness_min needs static_stiffness_moment (the moment "
+                             "of the secant check, kNm, > 0); without it the check would "
+                             "not be made")
+        if self.static_stiffness_moment is not None and self.static_stiffness_min is None:
+            raise ValueError("static_stiffness_moment needs static_stiffness_min (kNm/rad, "
+                             "> 0)")
+        return self
+
 
 class DesignStrength(_Model):
     """Partial factors on the soil strength for a second, factored pushover (each >= 1,
@@ -357,6 +418,9 @@ def _format(exc: ValidationError) -> list[str]:
             out.append(f"{path}: renamed to {RENAMED[path]} (same meaning and range)")
         elif err["type"] == "extra_forbidden":
             out.append(f"{path}: unknown key (value {err['input']!r}); check the spelling")
+        elif "expected a number" in msg:
+            out += [f"{path}.{m.strip()}" if path != "design" else m.strip()
+                    for m in msg.split("; ")]
         elif ";" in msg and path == "design":
             out += [m.strip() for m in msg.split(";")]
         else:
@@ -382,11 +446,19 @@ def load_design(path: str | Path) -> Design:
     else:  # pragma: no cover
         import tomli as tomllib
     p = Path(path)
+    if p.is_dir():
+        raise DesignError(f"{p}: is a folder, not a design file (give the .toml file)")
     if not p.is_file():
         raise DesignError(f"{p}: no such design file")
     try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        text = p.read_text(encoding="utf-8-sig")  # a byte-order mark is not an error
+    except OSError as exc:
+        raise DesignError(f"{p}: cannot be read ({exc.strerror or exc})") from None
+    except UnicodeDecodeError as exc:
+        raise DesignError(f"{p}: not UTF-8 text ({exc.reason} at byte {exc.start})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
         raise DesignError(f"{p}: not valid TOML ({exc})") from None
     return design_from_dict(data)
 

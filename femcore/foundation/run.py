@@ -285,9 +285,12 @@ def _initial_stage_failure(built: BuiltModel, failed) -> tuple[str, str]:
     capacity)."""
     fail = failed.result.failure or {}
     lam = fail.get("lam", 0.0)
-    if fail.get("singular") and failed.name == "vertical load":
-        return "ok", (f"capacity reached: mechanism under the vertical load alone at {lam:.0%} "
-                      f"of V = {built.design.loading.vertical:g} kN (no moment capacity)")
+    if fail.get("singular") and failed.name.startswith("vertical"):
+        lo = built.design.loading
+        what = (f"V = {lo.vertical:g} kN" + (f" and H = {lo.horizontal:g} kN"
+                                            if "horizontal" in failed.name else ""))
+        return "ok", (f"capacity reached: mechanism under the {failed.name} alone at "
+                      f"{lam:.0%} of {what} (no moment capacity)")
     if fail.get("singular") and failed.name == "self-weight":
         return "ok", (f"capacity reached: mechanism under the weights alone at {lam:.0%} of "
                       "them (the piles and soil cannot carry the cap, the backfill and the "

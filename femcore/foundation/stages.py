@@ -55,7 +55,7 @@ def pushover_steps(first: float) -> StepSettings:
     """Pushover increments: ``first`` (a fraction of the rotation cap) first, growing by 1.6
     after easy increments (bounded by :data:`PUSHOVER_RELATIVE` and the grid), halving on
     failure down to ``min(first, 1e-4) / 8``."""
-    return StepSettings(initial_step=first, min_step=min(first, 1e-4) / 8, max_step=0.1,
+    return StepSettings(initial_step=first, min_step=min(first, 1e-4) / 8, max_step=1.0,
                         grow=1.6, reuse_factorization=True)
 
 
@@ -304,7 +304,11 @@ def stages_for(built: BuiltModel, pushover_settings: StepSettings | None = None)
     if built.design.loading.control == "settlement":
         return [AtRestStresses(), SelfWeight(),
                 SettlementPath(pushover_settings or SETTLEMENT_STEPS)]
-    return [AtRestStresses(), SelfWeight(), VerticalLoad(), Pushover(pushover_settings)]
+    lo = built.design.loading
+    held_h = lo.control == "rotation" and lo.horizontal != 0.0
+    return [AtRestStresses(), SelfWeight(),
+            VerticalLoad(name="vertical and horizontal load") if held_h else VerticalLoad(),
+            Pushover(pushover_settings)]
 
 
 @dataclass

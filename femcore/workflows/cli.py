@@ -198,6 +198,13 @@ def _cmd_run(args: argparse.Namespace) -> int:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise InputProblem(f"--out {out}: cannot create the folder ({exc.strerror})") from None
+    probe = out / ".tiltfe-write-test"
+    try:  # find an unwritable folder before the analysis, not after it
+        probe.write_bytes(b"")
+        probe.unlink()
+    except OSError as exc:
+        raise InputProblem(f"--out {out}: the folder is not writable ({exc.strerror})") \
+            from None
     if design.analysis.geometry == "harmonic":
         if not args.quiet:
             print("\n".join(_harmonic_rows(design)))
