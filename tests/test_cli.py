@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from femcore.foundation.design import Design, load_design
+from femcore.foundation.design import Design, demo_design, load_design
 from femcore.foundation.run import run_design
 from femcore.workflows import cli
 from femcore.workflows.results import result_file_model
@@ -292,3 +292,20 @@ def test_harmonic_with_a_two_pile_ring_is_refused(tmp_path, capsys):
     assert cli.main(["run", str(path)]) == 2
     err = capsys.readouterr().err
     assert "piles.rings.1.count = 2" in err and "at least 3" in err and "Traceback" not in err
+
+
+def test_report_keeps_matplotlib_warnings_off_the_console(tmp_path):
+    """A CJK design name (glyphs the report font lacks): the report is written and no
+    warning reaches the user [common practice: library noise is not a user message]."""
+    import warnings
+
+    from femcore.workflows.report import write_report
+
+    d = demo_design(support="springs").model_copy(
+        update={"name": "风电基础 FW-07", "design_strength": None})
+    r = run_design(d, dynamic=False)
+    with warnings.catch_warnings(record=True) as seen:
+        warnings.simplefilter("always")
+        files = write_report(r, tmp_path)
+    assert len(files) >= 5 and all(f.stat().st_size > 0 for f in files)
+    assert [str(w.message) for w in seen] == []

@@ -234,7 +234,19 @@ def _histories_figure(plt, result: Result):
 
 
 def write_report(result: Result, out: Path) -> list[Path]:
-    """PNG figures and report.pdf in ``out``; returns the files written."""
+    """PNG figures and report.pdf in ``out``; returns the files written. Matplotlib's own
+    warnings (a glyph the font lacks, e.g. in a CJK design name; an empty legend) are not
+    the user's concern and are kept off the console."""
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", category=UserWarning, module="matplotlib")
+        warnings.filterwarnings("ignore", message=".*Glyph .* missing from font.*")
+        warnings.filterwarnings("ignore", message=".*No artists with labels.*")
+        return _write_report(result, out)
+
+
+def _write_report(result: Result, out: Path) -> list[Path]:
     import matplotlib
 
     matplotlib.use("Agg")
