@@ -14,6 +14,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import sys
 import time
 from concurrent.futures import ProcessPoolExecutor
 from pathlib import Path
@@ -219,21 +220,38 @@ def main(argv: list[str] | None = None) -> int:
     if args.only:
         names = [n for n in names if args.only in n]
         if not names:
-            print(f"tiltfe bench: no case matches --only {args.only!r}")
+            print(f"tiltfe bench: no case matches --only {args.only!r} (case names: "
+                  f"{', '.join([*_validation_cases(), *PERF][:4])}, ...)", file=sys.stderr)
             return 2
     mode = "quick" if args.quick else "full"
+    base_path = Path(args.baseline)
+    baseline_data: dict = {}
+    if base_path.is_file():  # a bad baseline is found before the cases run, not after
+        try:
+            baseline_data = json.loads(base_path.read_text(encoding="utf-8"))
+            if not isinstance(baseline_data, dict):
+                raise ValueError("not a JSON object")
+        except (ValueError, UnicodeDecodeError, OSError) as exc:
+            print(f"tiltfe bench: --baseline {base_path}: not a baseline JSON file ({exc})",
+                  file=sys.stderr)
+            return 2
+    elif base_path.exists():
+        print(f"tiltfe bench: --baseline {base_path}: not a file", file=sys.stderr)
+        return 2
+    out = Path(args.out)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        print(f"tiltfe bench: --out {out}: cannot create the folder ({exc.strerror})",
+              file=sys.stderr)
+        return 2
     t = time.perf_counter()
     rows = run_cases(names, args.quick, args.workers)
     print(_table(rows))
-    out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
     (out / "bench.json").write_text(json.dumps({"mode": mode, "rows": rows}, indent=1,
                                                default=float))
     _plot(rows, out / "convergence.png")
-    base_path = Path(args.baseline)
-    baseline = {}
-    if base_path.is_file():
-        baseline = json.loads(base_path.read_text()).get(mode, {})
+    baseline = baseline_data.get(mode, {})
     regressions = compare(rows, baseline, perf=not args.quick)
     failures = [r["case"] for r in rows if not r["passed"]]
     print(f"\n{len(rows)} cases in {time.perf_counter() - t:.0f} s ({mode}); "
@@ -244,7 +262,7 @@ def main(argv: list[str] | None = None) -> int:
     for r in regressions:
         print(f"  REGRESSION: {r}")
     if args.update_baseline:
-        data = json.loads(base_path.read_text()) if base_path.is_file() else {}
+        data = baseline_data
         data.setdefault(mode, {}).update({r["case"]: {k: r.get(k) for k in (
             "kind", "computed", "error", "passed")} for r in rows})
         base_path.write_text(json.dumps(data, indent=1, sort_keys=True, default=float))

@@ -309,3 +309,18 @@ def test_report_keeps_matplotlib_warnings_off_the_console(tmp_path):
         files = write_report(r, tmp_path)
     assert len(files) >= 5 and all(f.stat().st_size > 0 for f in files)
     assert [str(w.message) for w in seen] == []
+
+
+def test_bench_bad_options_exit_2_before_running(tmp_path, capsys):
+    """`bench --only` matching nothing and `--baseline` that is not JSON: exit 2 with the
+    option named on stderr, before any case runs."""
+    assert cli.main(["bench", "--quick", "--only", "no-such-case"]) == 2
+    io = capsys.readouterr()
+    assert "--only 'no-such-case'" in io.err and io.out == ""
+    bad = tmp_path / "base.json"
+    bad.write_text("not json")
+    assert cli.main(["bench", "--quick", "--baseline", str(bad), "--out",
+                     str(tmp_path / "o")]) == 2
+    io = capsys.readouterr()
+    assert f"--baseline {bad}" in io.err and "Traceback" not in io.err
+    assert not (tmp_path / "o" / "bench.json").exists()
