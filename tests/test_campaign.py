@@ -24,7 +24,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from femcore.foundation.design import demo_design, design_from_dict
+from femcore.foundation.design import demo_design, design_from_dict, load_design
 from femcore.foundation.dynamic import dynamic_stiffness
 from femcore.foundation.run import run_design
 from femcore.workflows.campaign import (
@@ -494,7 +494,8 @@ def test_export_has_dynamic_and_requirement_columns(springs_stores, tmp_path):
         assert k_dyn > k_static  # small-strain moduli G0 are stiffer than the operational E
         for i in (0, 10, 39):
             assert float(t[f"theta_{i:02d}"]) == pytest.approx(
-                np.geomspace(1e-6, 0.01, 40)[i], rel=1e-12)
+                np.geomspace(1e-6, load_design(SMALL).loading.rotation_max, 40)[i],
+                rel=1e-12)
 
 
 def test_dynamic_false_skips_the_dynamic_stiffness(springs_stores):
