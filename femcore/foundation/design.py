@@ -24,6 +24,9 @@ __all__ = ["AnalysisSettings", "SoilLayer", "Soil", "Cap", "PileRing", "Piles", 
 
 SCHEMA_VERSION = "1"
 
+#: joins several problems found by one validator (a problem's own text may hold "; ")
+PROBLEM_SEP = "\n"
+
 #: Default rotation cap of the pushover, rad: 95 % or more of the example design space
 #: reach their plateau before it (README, docs/keypoints.md).
 ROTATION_CAP = 0.05
@@ -90,7 +93,7 @@ class _Model(BaseModel):
                    if k in cls.model_fields and isinstance(v, (bool, str))
                    and _is_number_type(cls.model_fields[k].annotation)]
             if bad:
-                raise ValueError("; ".join(bad))
+                raise ValueError(PROBLEM_SEP.join(bad))
         return data
 
 
@@ -399,7 +402,7 @@ class Design(_Model):
             problems.append("loading.control = 'settlement' needs analysis.geometry = "
                             "'axisymmetric'")
         if problems:
-            raise ValueError("; ".join(problems))
+            raise ValueError(PROBLEM_SEP.join(problems))
         return self
 
 
@@ -420,9 +423,9 @@ def _format(exc: ValidationError) -> list[str]:
             out.append(f"{path}: unknown key (value {err['input']!r}); check the spelling")
         elif "expected a number" in msg:
             out += [f"{path}.{m.strip()}" if path != "design" else m.strip()
-                    for m in msg.split("; ")]
-        elif ";" in msg and path == "design":
-            out += [m.strip() for m in msg.split(";")]
+                    for m in msg.split(PROBLEM_SEP)]
+        elif PROBLEM_SEP in msg and path == "design":
+            out += [m.strip() for m in msg.split(PROBLEM_SEP)]
         else:
             out.append(f"{path}: {msg} (got {err['input']!r})" if "input" in err and not
                        isinstance(err["input"], dict) else f"{path}: {msg}")

@@ -1,7 +1,9 @@
 """The ``tiltfe`` command (``python -m femcore`` is the same).
 
 Exit codes: 0 success; 1 analysis failed (diverged; status recorded in the results);
-2 bad input (one message per problem naming the field, the value and the allowed range).
+2 bad input or an unusable file or folder (one message per problem naming the field or path,
+the value and what is allowed); 130 a campaign stopped by Ctrl-C or SIGTERM (finished runs
+kept).
 Numerical packages, gmsh and matplotlib are imported inside the commands, so ``--help``
 starts fast.
 """
@@ -18,7 +20,7 @@ from femcore.foundation.records import CAUTION as _CAUTION
 
 CAUTION = "Caution: " + _CAUTION[0].lower() + _CAUTION[1:]
 
-EXIT_OK, EXIT_FAILED, EXIT_INPUT = 0, 1, 2
+EXIT_OK, EXIT_FAILED, EXIT_INPUT, EXIT_INTERRUPTED = 0, 1, 2, 130
 
 
 class InputProblem(Exception):
@@ -265,12 +267,22 @@ def _cmd_campaign_run(args: argparse.Namespace) -> int:
     from femcore.workflows.campaign import SpaceError, run_campaign
 
     if args.workers is not None and args.workers < 1:
-        raise InputProblem(f"--workers {args.workers}: must be >= 1")
+        raise InputProblem(f"--workers {args.workers}: must be 1 or more (local worker "
+                           "processes)")
+    if args.limit is not None and args.limit < 0:
+        raise InputProblem(f"--limit {args.limit}: must be 0 or more (the number of samples "
+                           "to run now; leave it out to run every remaining sample)")
     try:
         summary = run_campaign(args.space, args.store, workers=args.workers,
                                scheduler=args.scheduler, quiet=args.quiet, limit=args.limit)
     except SpaceError as exc:
         raise InputProblem(str(exc)) from None
+    if summary.get("interrupted"):
+        print(f"stopped by {summary['interrupted']}: {summary['recorded']} runs recorded now "
+              f"and kept ({summary['finished']} of {summary['planned']} in the store), "
+              f"{summary['cancelled']} in flight cancelled; the same command resumes",
+              file=sys.stderr)
+        return EXIT_INTERRUPTED
     _print_status(summary)
     return EXIT_OK
 
@@ -288,19 +300,19 @@ def _print_status(summary: dict) -> None:
 
 
 def _cmd_campaign_status(args: argparse.Namespace) -> int:
-    from femcore.workflows.campaign import status_summary
+    from femcore.workflows.campaign import SpaceError, status_summary
 
-    if not Path(args.store).is_file():
-        raise InputProblem(f"{args.store}: no such store file")
-    _print_status(status_summary(args.store))
+    try:
+        summary = status_summary(args.store)
+    except SpaceError as exc:
+        raise InputProblem(str(exc)) from None
+    _print_status(summary)
     return EXIT_OK
 
 
 def _cmd_campaign_export(args: argparse.Namespace) -> int:
     from femcore.workflows.campaign import SpaceError, export
 
-    if not Path(args.store).is_file():
-        raise InputProblem(f"{args.store}: no such store file")
     try:
         out = export(args.store, args.out)
     except SpaceError as exc:

@@ -1,29 +1,39 @@
 """Running a campaign: one sample at a time in workers, every outcome stored as a record.
 
 :func:`run_sample` runs one design in a worker and never raises: a design the schema refuses
-is ``invalid_input``, a run over the time limit is ``timeout`` (the limit is cooperative: it
-is checked after every converged pushover increment, so it works alike in a local process
-and on a Dask worker), any other exception is ``error`` with its type and text, and a
-``diverged`` run is retried (``[run] retries`` times) with a first increment 4x smaller each
-time. The record follows the run's ``result.json`` content (``Result.to_dict()``): key point
-values, requirement checks, the dynamic stiffness, the moment on the fixed rotation grid,
-pile force envelopes, timings and a model summary.
+is ``invalid_input``; a run over the time limit is ``timeout`` (the limit bounds the whole
+run: an interval timer in a worker process, a check after every pushover increment on a Dask
+worker thread, and the coordinator stops a local worker that overruns it by a margin); any
+other exception is ``error`` with its type and text. A run that ``diverged`` in its pushover
+is retried (``[run] retries`` times) with a first increment 4x smaller each time; a failure
+in a weight or vertical-load stage is not retried (the retry changes nothing there). The
+record follows the run's ``result.json`` content (``Result.to_dict()``): key point values,
+requirement checks, the dynamic stiffness, the moment on the fixed rotation grid, pile force
+envelopes, timings and a model summary.
 
-:func:`run_campaign` samples the space, skips the sample ids already in the store (resume),
-records samples whose derived values cannot be computed as ``invalid_input`` without running
-them, and sends the rest to a local process pool (``workers``, all cores by default; one
-worker runs in this process) or a Dask scheduler (``scheduler`` address). Workers only return
-records; this process commits each one as it arrives and prints a progress line.
+:func:`run_campaign` locks the store, binds it to the space and its base design, samples
+the space, skips the sample ids already in the store (resume), records samples whose derived
+values cannot be computed as ``invalid_input`` without running them, and sends the rest to
+local worker processes (:mod:`.pool`; ``workers``, all cores by default; one worker runs in
+this process) or a Dask scheduler (``scheduler`` address). Only one job per worker is in
+flight. Workers only return records; this process commits each one as it arrives (one
+transaction) and prints a progress line. SIGINT or SIGTERM stops the dispatch at once: runs
+that finish within :data:`GRACE_S` are stored, the others are cancelled (they run again on
+resume) and every worker is stopped.
 """
 
 from __future__ import annotations
 
 import functools
 import os
+import signal
 import subprocess
 import sys
+import threading
 import time
+from collections import deque
 from collections.abc import Iterator
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -32,6 +42,7 @@ import numpy as np
 from .paths import SpaceError
 from .sampling import sample_space
 from .space import design_dict, load_space
+from .pool import WorkerPool
 from .store import FINISHED, RunRecord, Store, status_summary
 
 __all__ = ["ROTATION_GRID_POINTS", "rotation_grid", "run_sample", "run_campaign",
@@ -49,8 +60,9 @@ def rotation_grid(theta_max: float) -> np.ndarray:
     return np.geomspace(ROTATION_GRID_START, theta_max, ROTATION_GRID_POINTS)
 
 
-class _Timeout(Exception):
-    pass
+class _Timeout(BaseException):
+    """The run's time is up (a BaseException: no ``except Exception`` in the solver may
+    swallow it)."""
 
 
 def _curve_on_grid(curve: dict, rotation_max: float) -> dict | None:
@@ -103,10 +115,50 @@ def record_from_result(d: dict, attempts: int, seconds: float,
         model=_model_summary(d.get("model") or {}))
 
 
+def _retry_helps(result: dict) -> bool:
+    """A retry shrinks the first increment of the last stage (the pushover or settlement
+    run): it helps only a run that diverged there (a weight or vertical-load stage that
+    failed would fail again alike)."""
+    stages = result.get("stages") or []
+    return bool(stages) and stages[-1].get("status") == "diverged" and \
+        stages[-1].get("name") in ("pushover", "settlement") and \
+        all(st.get("status") == "ok" for st in stages[:-1])
+
+
+def _raise_timeout(signum: int, frame: Any) -> None:
+    raise _Timeout
+
+
 def run_sample(design_data: dict, time_limit: float, retries: int,
                dynamic: bool = True, design_strength: bool = True) -> RunRecord:
-    """Run one design (in a worker). Never raises: every outcome is a :class:`RunRecord`."""
+    """Run one design (in a worker). Never raises: every outcome is a :class:`RunRecord`.
+
+    The time limit bounds the whole run (build, every stage, both pushovers, the dynamic
+    stiffness): an interval timer (SIGALRM) where the run is in a process's main thread,
+    and a check after every converged pushover increment everywhere (a Dask worker thread).
+    """
     t0 = time.perf_counter()
+    attempts = 0
+    alarm = hasattr(signal, "setitimer") and \
+        threading.current_thread() is threading.main_thread()
+    old_handler = None
+    if alarm:
+        old_handler = signal.signal(signal.SIGALRM, _raise_timeout)
+        signal.setitimer(signal.ITIMER_REAL, time_limit)
+    try:
+        return _run_sample(design_data, time_limit, retries, dynamic, design_strength, t0)
+    except _Timeout:
+        return RunRecord("timeout", f"over the time limit of {time_limit:g} s (the whole "
+                         "run: build, stages and pushovers)", max(attempts, 1),
+                         time.perf_counter() - t0)
+    finally:
+        if alarm:
+            signal.setitimer(signal.ITIMER_REAL, 0.0)
+            signal.signal(signal.SIGALRM, old_handler)
+
+
+def _run_sample(design_data: dict, time_limit: float, retries: int, dynamic: bool,
+                design_strength: bool, t0: float) -> RunRecord:
     attempts = 0
     try:
         from femcore.foundation.design import DesignError, design_from_dict
@@ -144,7 +196,7 @@ def run_sample(design_data: dict, time_limit: float, retries: int,
             except DesignError as exc:
                 return RunRecord("invalid_input", "; ".join(exc.problems), attempts,
                                  time.perf_counter() - t0)
-            if result.get("status") != "diverged":
+            if result.get("status") != "diverged" or not _retry_helps(result):
                 break
         return record_from_result(result, attempts, time.perf_counter() - t0,
                                   design.loading.rotation_max)
@@ -179,82 +231,214 @@ def _provenance(design_data: dict) -> dict:
             "element": an.get("element", "T15"), "support": an.get("support", "continuum")}
 
 
-def _dispatch(jobs: list[tuple[dict, dict]], args: tuple, workers: int | None,
-              scheduler: str | None) -> Iterator[tuple[dict, dict, RunRecord]]:
-    """``(sample, design, record)`` of every job, in order of completion."""
-    if scheduler:
-        from dask.distributed import Client, as_completed
+GRACE_S = 3.0  # s: after a stop request, runs finishing within this are still stored
+SCHEDULER_TIMEOUT_S = 5.0
 
-        client = Client(scheduler)
+
+class _Stop:
+    """SIGINT / SIGTERM handling of the coordinator (main thread only).
+
+    The first signal sets :attr:`signal` (the dispatch loop stops sending work, stores what
+    finishes within :data:`GRACE_S` and cancels the rest); with ``immediate`` (one worker in
+    this process, or Dask) or on a second signal it raises KeyboardInterrupt at once.
+    """
+
+    def __init__(self, immediate: bool) -> None:
+        self.immediate = immediate
+        self.signal: int | None = None
+        self._old: dict[int, Any] = {}
+
+    def _handle(self, signum: int, frame: Any) -> None:
+        first = self.signal is None
+        self.signal = self.signal or signum
+        if self.immediate or not first:
+            raise KeyboardInterrupt
+
+    def __enter__(self) -> _Stop:
+        if threading.current_thread() is threading.main_thread():
+            for sig in (signal.SIGINT, signal.SIGTERM):
+                self._old[sig] = signal.signal(sig, self._handle)
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        for sig, old in self._old.items():
+            signal.signal(sig, old)
+
+
+@dataclass
+class _Tally:
+    """What a dispatch did: runs cancelled in flight when it was stopped."""
+
+    cancelled: int = 0
+
+
+def _connect(address: str):
+    """A Dask client of ``address``; SpaceError within a few seconds when unreachable."""
+    try:
+        from dask.distributed import Client
+    except ImportError:
+        raise SpaceError(f"--scheduler {address}: Dask is not installed (pip install "
+                         "'dask[distributed]')") from None
+    try:
+        return Client(address, timeout=SCHEDULER_TIMEOUT_S)
+    except Exception as exc:  # unreachable, refused, a bad address: all the user's to fix
+        raise SpaceError(f"--scheduler {address}: cannot reach the Dask scheduler within "
+                         f"{SCHEDULER_TIMEOUT_S:g} s ({type(exc).__name__}: {exc}); check "
+                         "the address (tcp://host:8786) and that the scheduler runs") from None
+
+
+def _dispatch(jobs: list[tuple[dict, dict]], args: tuple, workers: int, client: Any,
+              stop: _Stop, tally: _Tally,
+              hard_limit: float) -> Iterator[tuple[dict, dict, RunRecord]]:
+    """``(sample, design, record)`` of every job, in order of completion."""
+    if client is not None:
+        from dask.distributed import as_completed
+
+        futures = {client.submit(run_sample, data, *args, pure=False): (s, data)
+                   for s, data in jobs}
         try:
-            futures = {client.submit(run_sample, data, *args, pure=False): (s, data)
-                       for s, data in jobs}
             for fut in as_completed(futures):
-                s, data = futures[fut]
-                yield s, data, fut.result()
+                s, data = futures.pop(fut)
+                try:
+                    rec = fut.result()
+                except Exception as exc:  # a lost Dask worker: recorded, the campaign goes on
+                    rec = RunRecord("error", f"Dask: {type(exc).__name__}: {exc}")
+                yield s, data, rec
         finally:
+            tally.cancelled = len(futures)
+            client.cancel(list(futures))
             client.close()
         return
-    n = min(workers or os.cpu_count() or 1, len(jobs))
-    if n <= 1:
+    if workers <= 1:
         for s, data in jobs:
             yield s, data, run_sample(data, *args)
         return
-    import multiprocessing as mp
-    from concurrent.futures import ProcessPoolExecutor, as_completed
+    queue = deque(jobs)
+    sent: dict[int, tuple[dict, dict]] = {}
+    pool = WorkerPool(workers, run_sample, hard_limit=hard_limit)
+    try:
+        grace_end = None
+        while queue or pool.busy:
+            if stop.signal is not None:
+                if grace_end is None:
+                    grace_end = time.monotonic() + GRACE_S
+                    queue.clear()
+                if time.monotonic() > grace_end:
+                    break
+            while queue and pool.idle:
+                s, data = queue.popleft()
+                sent[s["id"]] = (s, data)
+                pool.submit(s["id"], (data, *args))
+            for key, rec in pool.poll(0.2):
+                s, data = sent.pop(key)
+                yield s, data, rec
+    finally:
+        tally.cancelled = len(pool.in_flight())
+        pool.close()
 
-    with ProcessPoolExecutor(max_workers=n, mp_context=mp.get_context("spawn")) as pool:
-        futures = {pool.submit(run_sample, data, *args): (s, data) for s, data in jobs}
-        try:
-            for fut in as_completed(futures):
-                s, data = futures[fut]
-                yield s, data, fut.result()
-        finally:
-            for fut in futures:
-                fut.cancel()
 
+class _Progress:
+    """The one-line progress counter on stderr."""
 
-def _progress_line(done: int, total: int, failed: int, t0: float, stream: Any) -> None:
-    rate = done / max(time.perf_counter() - t0, 1e-9) * 3600
-    stream.write(f"\r  {done}/{total} done, {failed} failed, {rate:.0f} runs/hour   ")
-    stream.flush()
+    def __init__(self, total: int, quiet: bool) -> None:
+        self.total, self.quiet = total, quiet
+        self.done = self.failed = self.ran = 0
+        self.t0 = time.perf_counter()
+        self.stream = sys.stderr
+
+    def add(self, rec: RunRecord, ran: bool = True) -> None:
+        self.done += 1
+        self.ran += ran
+        self.failed += rec.status not in ("ok", "censored")
+        if self.quiet:
+            return
+        elapsed = time.perf_counter() - self.t0
+        rate = self.ran / max(elapsed, 1e-9)
+        left = (self.total - self.done) / rate / 60 if self.ran and rate > 0 else None
+        eta = f", about {left:.0f} min left" if left is not None and self.done < self.total \
+            else ""
+        self.stream.write(f"\r  {self.done}/{self.total} recorded, {self.failed} failed, "
+                          f"{rate * 3600:.0f} runs/hour{eta}   ")
+        self.stream.flush()
+
+    def end(self) -> None:
+        if not self.quiet and self.done:
+            self.stream.write("\n")
+            self.stream.flush()
 
 
 def run_campaign(space_path: str | Path, store_path: str | Path, workers: int | None = None,
                  scheduler: str | None = None, quiet: bool = False,
                  limit: int | None = None) -> dict:
     """Run (or resume) the campaign of a space file into a store; returns
-    :func:`~femcore.workflows.campaign.store.status_summary`.
+    :func:`~femcore.workflows.campaign.store.status_summary` with ``interrupted`` (the
+    signal's name, or None), ``cancelled`` (runs in flight when stopped) and ``recorded``
+    (rows added now).
 
-    ``limit`` runs at most that many of the remaining samples (in id order).
+    ``limit`` runs at most that many of the remaining samples (in id order). The store is
+    locked for the whole run (a second coordinator is refused) and bound to the space and
+    its base design (a changed input is refused, naming what changed). SIGINT or SIGTERM
+    stops the dispatch at once, keeps what finishes within a few seconds and stops every
+    worker.
     """
+    if limit is not None and limit < 0:
+        raise SpaceError(f"--limit {limit}: must be 0 or more (the number of samples to run "
+                         "now; leave it out to run every remaining sample)")
+    if workers is not None and workers < 1:
+        raise SpaceError(f"--workers {workers}: must be 1 or more (local worker processes)")
     space = load_space(space_path)
     samples = sample_space(space)
-    with Store(store_path) as store:
-        store.claim(space.digest(), space.source, space.base_digest(), len(samples))
+    client = _connect(scheduler) if scheduler else None
+    try:
+        store = Store(store_path)
+    except Exception:
+        if client is not None:
+            client.close()
+        raise
+    with store:
+        try:
+            store.lock()
+            store.claim(space.digest(), space.source, space.base_digest(), len(samples),
+                        base=space.base)
+        except Exception:
+            if client is not None:
+                client.close()
+            raise
         done = store.finished_ids()
         todo = [s for s in samples if s["id"] not in done]
         if limit is not None:
             todo = todo[:limit]
+        progress = _Progress(len(todo), quiet)
         jobs = []
         for s in todo:
             try:
                 data = design_dict(space, s)
             except SpaceError as exc:  # stored with its sampled values, never run
-                store.add(s, design_dict(space, s, upto=0),
-                          RunRecord("invalid_input", f"derived value: {exc}"), {})
+                rec = RunRecord("invalid_input", f"derived value: {exc}")
+                store.add(s, design_dict(space, s, upto=0), rec, {})
+                progress.add(rec, ran=False)
                 continue
             jobs.append((s, data))
-        stream = sys.stderr
-        t0 = time.perf_counter()
-        n_done = n_failed = 0
+        n = 0 if client is not None else min(workers or os.cpu_count() or 1, len(jobs))
         args = (space.time_limit, space.retries, space.dynamic, space.design_strength)
-        for s, data, rec in _dispatch(jobs, args, workers, scheduler):
-            store.add(s, data, rec, _provenance(data))
-            n_done += 1
-            n_failed += rec.status not in ("ok", "censored")
-            if not quiet:
-                _progress_line(n_done, len(jobs), n_failed, t0, stream)
-        if not quiet and jobs:
-            stream.write("\n")
-        return status_summary(store)
+        tally = _Tally()
+        hard = space.time_limit + max(30.0, 0.2 * space.time_limit)
+        in_process = client is None and n <= 1
+        with _Stop(immediate=not (client is None and n > 1)) as stop:
+            results = _dispatch(jobs, args, n, client, stop, tally, hard)
+            try:
+                for s, data, rec in results:
+                    store.add(s, data, rec, _provenance(data))
+                    progress.add(rec)
+            except KeyboardInterrupt:
+                stop.signal = stop.signal or signal.SIGINT
+                if in_process and progress.ran < len(jobs):
+                    tally.cancelled = 1  # the run that was going on in this process
+            finally:
+                results.close()  # stops the workers
+        progress.end()
+        summary = status_summary(store)
+    summary["interrupted"] = None if stop.signal is None else signal.Signals(stop.signal).name
+    summary["cancelled"] = tally.cancelled
+    summary["recorded"] = progress.done
+    return summary

@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import json
 import os
+import socket
 import sqlite3
 import time
 from dataclasses import asdict, dataclass, fields
@@ -36,8 +37,8 @@ from typing import Any, Literal, TypedDict
 
 from .paths import SpaceError
 
-__all__ = ["RunStatus", "FINISHED", "Requirement", "RunRecord", "Store", "status_summary",
-           "LAYOUT"]
+__all__ = ["RunStatus", "FINISHED", "Requirement", "RunRecord", "Store", "StoreError",
+           "status_summary", "LAYOUT"]
 
 RunStatus = Literal["ok", "censored", "diverged", "invalid_input", "timeout", "error"]
 FINISHED: tuple[str, ...] = ("ok", "censored", "diverged", "invalid_input", "timeout", "error")
@@ -111,12 +112,119 @@ _COLUMNS = [  # name, SQL type (in the order of the layout-1 table, new columns 
 _DECODE = _JSON | {"unit", "inputs", "provenance"}
 
 
-class Store:
-    """The SQLite store of one campaign (see the module docstring)."""
+class StoreError(SpaceError):
+    """The store file cannot be used (a bad path, not a store, read-only, disk full, held by
+    another run); the message names the file and what to do."""
 
-    def __init__(self, path: str | Path) -> None:
+
+def _store_error(path: Path, exc: sqlite3.Error) -> StoreError:
+    text = str(exc)
+    low = text.lower()
+    if "not a database" in low or "malformed" in low:
+        why = "is not a campaign store (not an SQLite database file)"
+    elif "readonly" in low or "read-only" in low:
+        why = "cannot be written (the file or its folder is read-only)"
+    elif "disk is full" in low or "disk full" in low:
+        why = ("cannot be written: the disk is full (every run finished before is kept; "
+               "free some space and run again to resume)")
+    elif "unable to open" in low:
+        why = "cannot be opened (check that its folder exists and can be written)"
+    elif "locked" in low:
+        why = "is locked by another process"
+    else:
+        why = f"cannot be used ({text})"
+    return StoreError(f"{path}: {why}")
+
+
+def _try_lock(fh: Any) -> bool:
+    """An exclusive, non-blocking lock on an open file (released when it is closed or the
+    process ends); True when held."""
+    try:
+        import fcntl
+    except ImportError:  # pragma: no cover - Windows
+        import msvcrt
+
+        try:
+            msvcrt.locking(fh.fileno(), msvcrt.LK_NBLCK, 1)
+            return True
+        except OSError:
+            return False
+    try:
+        fcntl.flock(fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
+        return True
+    except OSError:
+        return False
+
+
+def _leaves(node: Any, prefix: str = "") -> dict[str, Any]:
+    if isinstance(node, dict):
+        out: dict[str, Any] = {}
+        for k, v in node.items():
+            out.update(_leaves(v, f"{prefix}{k}."))
+        return out
+    if isinstance(node, list) and node and all(isinstance(v, (dict, list)) for v in node):
+        out = {}
+        for i, v in enumerate(node):
+            out.update(_leaves(v, f"{prefix}{i}."))
+        return out
+    return {prefix[:-1]: node}
+
+
+def _changes(old: Any, new: Any, what: str, most: int = 5) -> str:
+    """The values that differ between two versions of nested settings, as text."""
+    if not isinstance(old, dict) or not isinstance(new, dict):
+        return f"{what} is not the one this store was started with"
+    a, b = _leaves(old), _leaves(new)
+    diff = []
+    for k in sorted(set(a) | set(b)):
+        if a.get(k, "<none>") != b.get(k, "<none>"):
+            diff.append(f"{k} {a.get(k, '(not set)')!r} -> {b.get(k, '(not set)')!r}")
+    if not diff:
+        return f"{what} is not the one this store was started with"
+    more = f" and {len(diff) - most} more" if len(diff) > most else ""
+    return f"{what} changed: " + ", ".join(diff[:most]) + more
+
+
+class Store:
+    """The SQLite store of one campaign (see the module docstring).
+
+    ``mode="write"`` (the campaign run) creates the file when missing; ``mode="read"``
+    (status, export) needs an existing store and never writes. Every problem with the file
+    (a folder, a missing folder, not a store, read-only, disk full) is a :class:`StoreError`
+    naming the file and what to do.
+    """
+
+    def __init__(self, path: str | Path, mode: Literal["write", "read"] = "write") -> None:
         self.path = Path(path)
-        self.db = sqlite3.connect(self.path, timeout=60)
+        self._lock_fh: Any = None
+        p = self.path
+        if p.is_dir():
+            raise StoreError(f"{p}: is a folder, not a store file (give a file name such as "
+                             "runs.sqlite)")
+        if mode == "read" and not p.is_file():
+            raise StoreError(f"{p}: no such store file")
+        if mode == "write" and not p.parent.is_dir():
+            raise StoreError(f"{p}: the folder {p.parent} does not exist (create it first)")
+        existed = p.is_file() and p.stat().st_size > 0
+        try:
+            if mode == "read":
+                self.db = sqlite3.connect(f"{p.resolve().as_uri()}?mode=ro", uri=True,
+                                          timeout=60)
+            else:
+                self.db = sqlite3.connect(p, timeout=60)
+            tables = {r[0] for r in self.db.execute(
+                "SELECT name FROM sqlite_master WHERE type = 'table'")}
+            if (existed or mode == "read") and not {"meta", "runs"} <= tables:
+                self.db.close()
+                found = ", ".join(sorted(tables)) or "none"
+                raise StoreError(f"{p}: an SQLite file but not a campaign store (its tables: "
+                                 f"{found}); give the store a campaign run wrote")
+            if mode == "write":
+                self._create()
+        except sqlite3.Error as exc:
+            raise _store_error(p, exc) from None
+
+    def _create(self) -> None:
         self.db.execute("PRAGMA journal_mode=WAL")
         self.db.execute("PRAGMA synchronous=NORMAL")
         cols = ", ".join(f"{n} {t}" for n, t in _COLUMNS)
@@ -131,6 +239,29 @@ class Store:
             self.db.execute("INSERT OR REPLACE INTO meta VALUES ('layout', ?)",
                             (json.dumps(LAYOUT),))
 
+    def lock(self) -> None:
+        """Hold the store for this process until :meth:`close` (or the process ends, however
+        it ends): a second campaign run on the same store is refused with StoreError."""
+        lock_path = self.path.with_name(self.path.name + ".lock")
+        try:
+            fh = open(lock_path, "a+")  # noqa: SIM115 - held until close()
+        except OSError as exc:
+            raise StoreError(f"{lock_path}: cannot create the lock file beside the store "
+                             f"({exc.strerror})") from None
+        if not _try_lock(fh):
+            fh.seek(0)
+            holder = fh.read().strip() or "another process"
+            fh.close()
+            raise StoreError(f"{self.path}: another campaign run is writing this store "
+                             f"({holder}); wait for it to finish or stop it (Ctrl-C), or use "
+                             "another store file")
+        fh.seek(0)
+        fh.truncate()
+        fh.write(f"pid {os.getpid()} on {socket.gethostname()}, since "
+                 f"{time.strftime('%Y-%m-%d %H:%M:%S')}")
+        fh.flush()
+        self._lock_fh = fh
+
     def __enter__(self) -> Store:
         return self
 
@@ -142,21 +273,30 @@ class Store:
         return None if row is None else json.loads(row[0])
 
     def set_meta(self, key: str, value: Any) -> None:
-        with self.db:
-            self.db.execute("INSERT OR REPLACE INTO meta VALUES (?, ?)", (key, json.dumps(value)))
+        try:
+            with self.db:
+                self.db.execute("INSERT OR REPLACE INTO meta VALUES (?, ?)",
+                                (key, json.dumps(value)))
+        except sqlite3.Error as exc:
+            raise _store_error(self.path, exc) from None
 
-    def claim(self, digest: str, source: dict, base_digest: str, planned: int) -> None:
-        """Bind the store to one space; SpaceError if it holds the runs of another one."""
+    def claim(self, digest: str, source: dict, base_digest: str, planned: int,
+              base: dict | None = None) -> None:
+        """Bind the store to one space and base design; StoreError naming what changed when
+        it holds the runs of another space or of an edited base design."""
         known = self.meta("space_digest")
         if known is not None and known != digest:
-            raise SpaceError(f"{self.path}: this store belongs to another space (digest "
-                             f"{known}, this space {digest}); use a new store file")
+            raise StoreError(f"{self.path}: this store belongs to another space: "
+                             + _changes(self.meta("space"), source, "the space file")
+                             + "; undo the change or use a new store file")
         known_base = self.meta("base_digest")
         if known_base is not None and known_base != base_digest:
-            raise SpaceError(f"{self.path}: the base design changed since this store was "
-                             "started; use a new store file")
-        for key, value in (("space_digest", digest), ("space", source),
-                           ("base_digest", base_digest), ("planned", planned)):
+            raise StoreError(f"{self.path}: the base design changed since this store was "
+                             "started: " + _changes(self.meta("base"), base, "the base design")
+                             + "; undo the change or use a new store file")
+        values = [("space_digest", digest), ("space", source), ("base_digest", base_digest),
+                  ("planned", planned)] + ([("base", base)] if base is not None else [])
+        for key, value in values:
             self.set_meta(key, value)
 
     def finished_ids(self) -> set[int]:
@@ -170,9 +310,12 @@ class Store:
                "finished_at": time.time()}
         names = ", ".join(row)
         marks = ", ".join("?" * len(row))
-        with self.db:
-            self.db.execute(f"INSERT OR REPLACE INTO runs ({names}) VALUES ({marks})",
-                            tuple(row.values()))
+        try:
+            with self.db:
+                self.db.execute(f"INSERT OR REPLACE INTO runs ({names}) VALUES ({marks})",
+                                tuple(row.values()))
+        except sqlite3.Error as exc:
+            raise _store_error(self.path, exc) from None
 
     def rows(self) -> list[dict]:
         """Every stored row, nested values decoded, by sample id."""
@@ -192,12 +335,15 @@ class Store:
 
     def close(self) -> None:
         self.db.close()
+        if self._lock_fh is not None:  # the lock file stays; its lock goes with the handle
+            self._lock_fh.close()
+            self._lock_fh = None
 
 
 def status_summary(store: Store | str | Path) -> dict:
     """Counts by status, failure rate, mean run time and the estimated time to finish."""
     own = not isinstance(store, Store)
-    st = Store(store) if own else store
+    st = Store(store, mode="read") if own else store
     try:
         planned = st.meta("planned")
         if planned is None:  # a layout-1 store: from its space file
