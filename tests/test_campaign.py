@@ -592,12 +592,16 @@ def test_run_record_round_trip_through_the_store(tmp_path):
 
 
 class _FakeResult:
-    def __init__(self, status):
+    def __init__(self, status, failed_stage="pushover"):
         self.status = status
+        names = ["at-rest stresses", "self-weight", "vertical load", "pushover"]
+        k = names.index(failed_stage) if status == "diverged" else len(names) - 1
+        self.stages = [{"name": n, "status": "diverged" if status == "diverged" and i == k
+                        else "ok"} for i, n in enumerate(names[:k + 1])]
 
     def to_dict(self):
         return {"status": self.status, "message": f"{self.status} run", "keypoints": {},
-                "curve": {}, "piles": [], "model": {}, "timings": {}}
+                "curve": {}, "piles": [], "model": {}, "timings": {}, "stages": self.stages}
 
 
 def test_run_sample_retries_timeouts_and_failures(monkeypatch, tmp_path):
@@ -624,6 +628,17 @@ def test_run_sample_retries_timeouts_and_failures(monkeypatch, tmp_path):
     seen.clear()
     rec = run_sample(data, 10.0, 1)
     assert (rec.status, rec.attempts, len(seen)) == ("diverged", 2, 2)
+    # a weight stage that diverged is not retried: a smaller first pushover increment
+    # would repeat the identical failing stage
+    seen.clear()
+
+    def weight_fails(design, progress=None, dynamic=True):
+        seen.append(design.loading.initial_increment)
+        return _FakeResult("diverged", failed_stage="self-weight")
+
+    monkeypatch.setattr(run_module, "run_design", weight_fails)
+    rec = run_sample(data, 10.0, 3)
+    assert (rec.status, rec.attempts, len(seen)) == ("diverged", 1, 1)
 
     def broken(design, progress=None, dynamic=True):
         raise RuntimeError("boom")

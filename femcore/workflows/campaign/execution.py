@@ -354,9 +354,9 @@ class _Progress:
             return
         elapsed = time.perf_counter() - self.t0
         rate = self.ran / max(elapsed, 1e-9)
-        left = (self.total - self.done) / rate / 60 if self.ran and rate > 0 else None
-        eta = f", about {left:.0f} min left" if left is not None and self.done < self.total \
-            else ""
+        left = (self.total - self.done) / rate if self.ran and rate > 0 else None
+        eta = "" if left is None or self.done >= self.total else \
+            f", about {left / 60:.0f} min left" if left >= 90 else f", about {left:.0f} s left"
         self.stream.write(f"\r  {self.done}/{self.total} recorded, {self.failed} failed, "
                           f"{rate * 3600:.0f} runs/hour{eta}   ")
         self.stream.flush()

@@ -170,19 +170,20 @@ def _leaves(node: Any, prefix: str = "") -> dict[str, Any]:
     return {prefix[:-1]: node}
 
 
-def _changes(old: Any, new: Any, what: str, most: int = 5) -> str:
+def _changes(old: Any, new: Any, most: int = 5) -> str:
     """The values that differ between two versions of nested settings, as text."""
     if not isinstance(old, dict) or not isinstance(new, dict):
-        return f"{what} is not the one this store was started with"
+        return ("the store predates the record of its base design, so the changed values "
+                "are not known")
     a, b = _leaves(old), _leaves(new)
     diff = []
     for k in sorted(set(a) | set(b)):
         if a.get(k, "<none>") != b.get(k, "<none>"):
             diff.append(f"{k} {a.get(k, '(not set)')!r} -> {b.get(k, '(not set)')!r}")
     if not diff:
-        return f"{what} is not the one this store was started with"
+        return "the same values in another order or form"
     more = f" and {len(diff) - most} more" if len(diff) > most else ""
-    return f"{what} changed: " + ", ".join(diff[:most]) + more
+    return ", ".join(diff[:most]) + more
 
 
 class Store:
@@ -286,14 +287,14 @@ class Store:
         it holds the runs of another space or of an edited base design."""
         known = self.meta("space_digest")
         if known is not None and known != digest:
-            raise StoreError(f"{self.path}: this store belongs to another space: "
-                             + _changes(self.meta("space"), source, "the space file")
-                             + "; undo the change or use a new store file")
+            raise StoreError(f"{self.path}: this store belongs to another space (the space "
+                             "file changed: " + _changes(self.meta("space"), source)
+                             + "); undo the change or use a new store file")
         known_base = self.meta("base_digest")
         if known_base is not None and known_base != base_digest:
             raise StoreError(f"{self.path}: the base design changed since this store was "
-                             "started: " + _changes(self.meta("base"), base, "the base design")
-                             + "; undo the change or use a new store file")
+                             "started (" + _changes(self.meta("base"), base)
+                             + "); undo the change or use a new store file")
         values = [("space_digest", digest), ("space", source), ("base_digest", base_digest),
                   ("planned", planned)] + ([("base", base)] if base is not None else [])
         for key, value in values:
