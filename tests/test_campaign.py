@@ -28,6 +28,7 @@ from femcore.foundation.design import demo_design, design_from_dict, load_design
 from femcore.foundation.dynamic import dynamic_stiffness
 from femcore.foundation.run import run_design
 from femcore.workflows.campaign import (
+    FINISHED,
     RunRecord,
     SpaceError,
     Store,
@@ -42,6 +43,7 @@ from femcore.workflows.campaign import (
     space_json_schema,
     status_summary,
 )
+from femcore.workflows.campaign.store import StoreError
 from femcore.workflows.campaign.space import space_from_dict
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -218,6 +220,125 @@ def test_export_round_trip(local_store, tmp_path):
     table = pq.read_table(export(store, tmp_path / "t.parquet")).to_pydict()
     assert table["sample_id"] == [r["sample_id"] for r in rows]
     assert np.allclose(table["moment_10"], [r["curve"]["moment"][10] for r in rows])
+
+
+def _children(pid: int) -> set[int]:
+    """Live child processes of ``pid`` (from /proc)."""
+    out = set()
+    for d in Path("/proc").iterdir():
+        if d.name.isdigit():
+            try:
+                stat = (d / "stat").read_text()
+            except OSError:
+                continue
+            fields = stat.rsplit(")", 1)[1].split()
+            if int(fields[1]) == pid and fields[0] != "Z":
+                out.add(int(d.name))
+    return out
+
+
+def _alive(pids: set[int]) -> set[int]:
+    alive = set()
+    for p in pids:
+        try:
+            state = Path(f"/proc/{p}/stat").read_text().rsplit(")", 1)[1].split()[0]
+        except OSError:
+            continue
+        if state != "Z":
+            alive.add(p)
+    return alive
+
+
+def _count_rows(store: Path) -> int:
+    try:
+        return sqlite3.connect(store).execute("SELECT COUNT(*) FROM runs").fetchone()[0]
+    except sqlite3.Error:
+        return 0
+
+
+def _wait_for(cond, timeout: float) -> bool:
+    deadline = time.monotonic() + timeout
+    while time.monotonic() < deadline:
+        if cond():
+            return True
+        time.sleep(0.05)
+    return False
+
+
+@pytest.mark.skipif(not Path("/proc/self/stat").exists(), reason="needs Linux /proc to see "
+                    "the worker processes")
+def test_sigint_lock_and_killed_coordinator(tmp_path):
+    """The campaign's fault behaviour (issue: bad input and faults), with two local workers
+    on coarse continuum runs of a few seconds each:
+
+    * a second coordinator on the same store is refused (exit 2) while the first runs;
+    * SIGINT stops the first within 10 s (exit 130, a one-line summary), every row finished
+      before the signal is kept, and no worker process is left;
+    * after SIGKILL of the coordinator its workers leave by themselves within seconds, and
+      the lock goes with the killed process (a new run may start at once).
+    """
+    space = _space(tmp_path, size=16, extra=FAST)
+    store = tmp_path / "faults.sqlite"
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    cmd = [sys.executable, "-m", "femcore", "campaign", "run", str(space), "--store",
+           str(store), "--workers", "2"]
+    proc = subprocess.Popen(cmd + ["--quiet"], env=env, stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, text=True)
+    try:
+        assert _wait_for(lambda: _count_rows(store) >= 1 and len(_children(proc.pid)) >= 2,
+                         120), "no run finished within 120 s"
+        workers = _children(proc.pid)
+        second = subprocess.run(cmd + ["--limit", "1"], env=env, capture_output=True,
+                                text=True, timeout=60)
+        assert second.returncode == 2, second.stderr
+        assert "another campaign run is writing this store" in second.stderr
+        assert "Traceback" not in second.stderr
+        kept = _count_rows(store)
+        assert proc.poll() is None, "the campaign ended before the signal"
+        t = time.monotonic()
+        proc.send_signal(signal.SIGINT)
+        out, err = proc.communicate(timeout=60)
+        stop_s = time.monotonic() - t
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert stop_s <= 10.0, f"SIGINT took {stop_s:.1f} s to stop the campaign"
+    assert proc.returncode == 130, err
+    assert "stopped by SIGINT" in err and "the same command resumes" in err
+    assert "Traceback" not in err
+    rows = Store(store, mode="read").rows()
+    assert kept <= len(rows) < 16  # finished rows kept, the rest not run
+    assert all(r["status"] in FINISHED for r in rows)
+    assert _wait_for(lambda: not _alive(workers), 3.0), "worker processes left behind"
+
+    # SIGKILL of the coordinator: its workers notice and leave; the lock is released
+    proc = subprocess.Popen(cmd + ["--quiet"], env=env, stdout=subprocess.DEVNULL,
+                            stderr=subprocess.DEVNULL)
+    try:
+        assert _wait_for(lambda: len(_children(proc.pid)) >= 2, 60)
+        workers = _children(proc.pid)
+        proc.kill()
+        proc.wait()
+        assert _wait_for(lambda: not _alive(workers), 5.0), "workers outlived a killed " \
+            "coordinator"
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    again = subprocess.run(cmd + ["--limit", "0"], env=env, capture_output=True, text=True,
+                           timeout=60)
+    assert again.returncode == 0, again.stderr
+
+
+def test_store_lock_is_held_until_close(tmp_path):
+    path = tmp_path / "locked.sqlite"
+    first = Store(path)
+    first.lock()
+    with pytest.raises(StoreError, match=r"another campaign run is writing this store \(pid "
+                       rf"{os.getpid()} on"):
+        Store(path).lock()
+    first.close()
+    with Store(path) as again:  # released with the first handle
+        again.lock()
 
 
 def test_invalid_samples_are_recorded_not_run(tmp_path):
@@ -530,8 +651,12 @@ def test_resume_runs_only_the_missing_samples(tmp_path):
     with pytest.raises(SpaceError, match="belongs to another space"):
         run_campaign(other, store, workers=1, quiet=True)
     base.write_text(SMALL.read_text().replace("vertical = 2000.0", "vertical = 2100.0"))
-    with pytest.raises(SpaceError, match="the base design changed"):
+    with pytest.raises(SpaceError, match=re.escape("the base design changed since this store "
+                                                   "was started (loading.vertical 2000.0 -> "
+                                                   "2100.0)")):
         run_campaign(space, store, workers=1, quiet=True)
+    base.write_text("# a comment only changes nothing\n" + SMALL.read_text())
+    assert run_campaign(space, store, workers=1, quiet=True)["finished"] == 4
 
 
 OLD_LAYOUT = """

@@ -324,3 +324,137 @@ def test_bench_bad_options_exit_2_before_running(tmp_path, capsys):
     io = capsys.readouterr()
     assert f"--baseline {bad}" in io.err and "Traceback" not in io.err
     assert not (tmp_path / "o" / "bench.json").exists()
+
+
+# ------------------------------------------------------------ environment and campaign files
+def _tiny_space(tmp: Path) -> Path:
+    """A valid four-sample space on the springs example (never run by these tests)."""
+    p = tmp / "space.toml"
+    p.write_text(f'base = "{SMALL.as_posix()}"\n[[parameter]]\npath = "cap.diameter"\n'
+                 'low = 7.6\nhigh = 9.0\n[sampling]\nsize = 4\n')
+    return p
+
+
+def _not_sqlite(tmp: Path) -> Path:
+    p = tmp / "notes.sqlite"
+    p.write_text("these are notes, not a store\n")
+    return p
+
+
+def _other_sqlite(tmp: Path) -> Path:
+    import sqlite3
+
+    p = tmp / "other.db"
+    with sqlite3.connect(p) as db:
+        db.execute("CREATE TABLE inventory (item TEXT)")
+    db.close()
+    return p
+
+
+def _store(tmp: Path) -> Path:
+    from femcore.workflows.campaign import Store
+
+    p = tmp / "empty.sqlite"
+    Store(p).close()
+    return p
+
+
+ENVIRONMENT = {  # id: (argv from the tmp folder, text the message must hold)
+    "status_not_sqlite": (lambda t: ["campaign", "status", str(_not_sqlite(t))],
+                          "notes.sqlite: is not a campaign store (not an SQLite database"),
+    "status_other_db": (lambda t: ["campaign", "status", str(_other_sqlite(t))],
+                        "other.db: an SQLite file but not a campaign store (its tables: "
+                        "inventory)"),
+    "status_missing": (lambda t: ["campaign", "status", str(t / "none.sqlite")],
+                       "none.sqlite: no such store file"),
+    "status_folder": (lambda t: ["campaign", "status", str(t)],
+                      "is a folder, not a store file"),
+    "export_not_sqlite": (lambda t: ["campaign", "export", str(_not_sqlite(t)), "--out",
+                                     str(t / "x.csv")], "is not a campaign store"),
+    "export_missing_folder": (lambda t: ["campaign", "export", str(_store(t)), "--out",
+                                         str(t / "no" / "x.csv")],
+                              "x.csv: the folder"),
+    "export_into_folder": (lambda t: ["campaign", "export", str(_store(t)), "--out",
+                                      str(t)], "is a folder"),
+    "export_suffix": (lambda t: ["campaign", "export", str(_store(t)), "--out",
+                                 str(t / "x.xlsx")], "use a .csv or .parquet file name"),
+    "run_store_missing_folder": (lambda t: ["campaign", "run", str(_tiny_space(t)),
+                                            "--store", str(t / "no" / "s.sqlite")],
+                                 "does not exist (create it first)"),
+    "run_store_folder": (lambda t: ["campaign", "run", str(_tiny_space(t)), "--store",
+                                    str(t)], "is a folder, not a store file"),
+    "run_store_not_sqlite": (lambda t: ["campaign", "run", str(_tiny_space(t)), "--store",
+                                        str(_not_sqlite(t))], "is not a campaign store"),
+    "run_store_other_db": (lambda t: ["campaign", "run", str(_tiny_space(t)), "--store",
+                                      str(_other_sqlite(t))], "not a campaign store"),
+    "run_limit_negative": (lambda t: ["campaign", "run", str(_tiny_space(t)), "--store",
+                                      str(t / "s.sqlite"), "--limit", "-1"],
+                           "--limit -1: must be 0 or more"),
+    "run_workers_zero": (lambda t: ["campaign", "run", str(_tiny_space(t)), "--store",
+                                    str(t / "s.sqlite"), "--workers", "0"],
+                         "--workers 0: must be 1 or more"),
+    "run_space_missing": (lambda t: ["campaign", "run", str(t / "nope.toml"), "--store",
+                                     str(t / "s.sqlite")], "nope.toml: no such file"),
+    "run_space_not_toml": (lambda t: ["campaign", "run", str(_not_sqlite(t)), "--store",
+                                      str(t / "s.sqlite")], "notes.sqlite: not valid TOML"),
+    "run_out_is_file": (lambda t: ["run", str(SMALL), "--out", str(_not_sqlite(t))],
+                        "cannot create the folder"),
+    "run_design_folder": (lambda t: ["run", str(t)], "is a folder, not a design file"),
+    "check_design_missing": (lambda t: ["check", str(t / "none.toml")], "none.toml"),
+}
+
+
+@pytest.mark.parametrize("case", list(ENVIRONMENT))
+def test_environment_errors_exit_2_naming_the_path(tmp_path, capsys, case):
+    make, text = ENVIRONMENT[case]
+    code = cli.main(make(tmp_path))
+    err = capsys.readouterr().err
+    assert code == 2, err
+    assert text in err, err
+    assert "Traceback" not in err
+    assert not (tmp_path / "s.sqlite").exists()  # refused before a store is made
+
+
+def test_unreachable_scheduler_is_refused_within_seconds(tmp_path, capsys):
+    pytest.importorskip("distributed")
+    import socket
+    import time
+
+    with socket.socket() as s:  # a free local port nobody listens on
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    t = time.monotonic()
+    code = cli.main(["campaign", "run", str(_tiny_space(tmp_path)), "--store",
+                     str(tmp_path / "d.sqlite"), "--scheduler", f"tcp://127.0.0.1:{port}"])
+    waited = time.monotonic() - t
+    err = capsys.readouterr().err
+    assert code == 2 and f"--scheduler tcp://127.0.0.1:{port}: cannot reach" in err, err
+    assert waited < 30.0  # the 5 s connection timeout, not the default minute or a hang
+    assert not (tmp_path / "d.sqlite").exists()
+
+
+def test_run_stopped_in_the_weight_stage_claims_no_pass(tmp_path, capsys):
+    """Short piles in very soft clay cannot carry the cap under its own weight: the run ends
+    in the self-weight stage. The capacity check then fails (no moment capacity: the
+    mechanism is the capacity, common practice) and no other check may read PASS or FAIL."""
+    d = tomllib.loads(DEMO.read_text())
+    d.setdefault("analysis", {}).update(mesh="coarse", element="T6")
+    d.pop("design_strength", None)
+    d["piles"]["length"] = 12.0
+    d["soil"]["layers"][2].update(su=8.0, E=1500.0)
+    path = tmp_path / "short.toml"
+    path.write_text(_toml(d))
+    out = tmp_path / "short-results"
+    assert cli.main(["run", str(path), "--out", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "mechanism under the weights alone" in text
+    checks = {ln.split()[0]: ln.split()[1] for ln in
+              text.split("requirement checks")[1].splitlines()[1:5]}
+    assert checks == {"static_stiffness": "not", "dynamic_stiffness": "not",
+                      "capacity": "FAIL", "no_pile_tension": "not"}, text
+    assert "PASS" not in text
+    res = json.loads((out / "result.json").read_text())
+    assert res["requirements"]["capacity"]["margin"] == pytest.approx(-1.0, abs=1e-12)
+    assert "stopped in the self-weight stage" in res["requirements"]["static_stiffness"][
+        "detail"]
+    assert (out / "report.pdf").stat().st_size > 0

@@ -12,7 +12,7 @@ from __future__ import annotations
 import platform
 import time
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -299,6 +299,17 @@ def _initial_stage_failure(built: BuiltModel, failed) -> tuple[str, str]:
                         f"{failed.result.cutbacks} cut-back(s) ({failed.result.message})")
 
 
+def _stopped_checks(design: Design, kp: dict[str, KeyPoint],
+                    stage: str) -> dict[str, RequirementCheck]:
+    """The requirement checks of a run that stopped in an initial stage: a mechanism there
+    fails the capacity check (no moment capacity); every other check is not decided."""
+    checks = check_requirements(design, np.zeros(0), np.zeros(0), kp, [], None)
+    why = f"; not decided: the run stopped in the {stage} stage"
+    return {k: c if c.passed is not None else
+            replace(c, detail=c.detail.split("; not decided")[0] + why)
+            for k, c in checks.items()}
+
+
 def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None = None,
               settings: StepSettings | None = None, dynamic: bool = True,
               elastic: ElasticStiffness | None = None, factored: bool = True) -> Result:
@@ -328,7 +339,8 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
         kp0 = {} if status != "ok" else {"ultimate": KeyPoint(
             "ultimate", 0.0, "kNm", f"mechanism under the {failed.name} stage's load", {},
             {"rotation": 0.0, "censored": False, "mechanism": True})}
-        return Result(status, message, {}, kp0, {}, [], info,
+        return Result(status, message, {}, kp0, _stopped_checks(design, kp0, failed.name),
+                      [], info,
                       {"total_s": t1 - t0, "build_s": built.meta.get("build_s", 0.0)},
                       design.name, None, stage_rows, built=built, pushover=failed.result)
     res = final.result

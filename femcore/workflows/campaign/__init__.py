@@ -18,10 +18,11 @@ from .formulas import Formula, evaluate_formula, parse_formula
 from .paths import SpaceError
 from .sampling import sample_space
 from .space import Space, SpaceSpec, design_dict, load_space, space_json_schema
-from .store import FINISHED, RunRecord, RunStatus, Store, status_summary
+from .store import FINISHED, RunRecord, RunStatus, Store, StoreError, status_summary
 
 __all__ = ["ROTATION_GRID_POINTS", "FINISHED", "Formula", "RunRecord", "RunStatus",
-           "Space", "SpaceError", "SpaceSpec", "Store", "design_dict", "evaluate_formula",
+           "Space", "SpaceError", "SpaceSpec", "Store", "StoreError", "design_dict",
+           "evaluate_formula",
            "export", "export_rows", "load_space", "parse_formula", "rotation_grid",
            "run_campaign", "run_sample", "sample_space", "space_json_schema",
            "status_summary"]

@@ -121,10 +121,10 @@ def export_rows(store_path: str | Path) -> tuple[list[str], list[dict]]:
 def export(store_path: str | Path, out: str | Path) -> Path:
     """Write the table as CSV or Parquet (by the file extension); the path written."""
     out = Path(out)
-    if out.suffix not in (".csv", ".parquet"):
-        raise SpaceError(f"--out {out}: use a .csv or .parquet file name")
     if out.is_dir():
         raise SpaceError(f"--out {out}: is a folder; give a file name such as runs.csv")
+    if out.suffix not in (".csv", ".parquet"):
+        raise SpaceError(f"--out {out}: use a .csv or .parquet file name")
     if not out.parent.is_dir():
         raise SpaceError(f"--out {out}: the folder {out.parent} does not exist (create it "
                          "first)")
