@@ -158,7 +158,7 @@ BAD_INPUTS = [
     (("loading.rotation_max", 0.004), "loading.rotation_max = 0.004 rad is below"),
     (("design_strength.su", 0.9), "design_strength.su"),
     (("design_strength.tan_phi", 0.5), "design_strength.tan_phi"),
-    (("cap.diameter", "22"), "cap.diameter: expected a number (> 2, <= 60), got '22'"),
+    (("cap.diameter", "22"), "cap.diameter: expected a number in m (> 2, <= 60), got '22'"),
     (("soil.layers.0.thickness", True), "soil.layers.0.thickness: expected a number"),
     (("piles.rings.1.count", "16"), "piles.rings.1.count: expected a number (>= 1, <= 200)"),
     (("requirements.static_stiffness_moment", ...), "static_stiffness_min needs "
@@ -188,6 +188,15 @@ def test_nan_and_inf_are_refused(tmp_path, capsys, path, value):
     assert cli.main(["check", str(bad)]) == 2
     err = capsys.readouterr().err
     assert path in err and "finite number" in err and "Traceback" not in err
+    assert "must be" not in err  # not "must be <= 60 (got nan)"
+
+
+def test_nan_message_states_unit_and_bounds(tmp_path, capsys):
+    bad = tmp_path / "nan.toml"
+    bad.write_text(_toml(_bad(("cap.diameter", float("nan")))))
+    assert cli.main(["check", str(bad)]) == 2
+    assert "cap.diameter: expected a finite number in m (> 2, <= 60), got nan" in \
+        capsys.readouterr().err
 
 
 def test_byte_order_mark_folder_and_non_utf8(tmp_path, capsys):

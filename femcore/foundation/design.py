@@ -78,6 +78,42 @@ def _bounds(field) -> str:
     return f" ({', '.join(out)})" if out else ""
 
 
+def _unit(field) -> str:
+    """The unit a field's description ends with (``"cap diameter, m"`` -> ``"m"``)."""
+    text = (field.description or "").rsplit(", ", 1)
+    unit = text[-1].split(":")[0].strip() if len(text) == 2 else ""
+    return unit if 0 < len(unit) <= 8 and " " not in unit else ""
+
+
+def _allowed_number(field) -> str:
+    """`` in m (> 2, <= 60)``: what a numeric field accepts."""
+    unit = _unit(field)
+    return (f" in {unit}" if unit else "") + _bounds(field)
+
+
+def _field_at(loc: tuple) -> Any:
+    """The pydantic field an error location ends in (None where it cannot be followed)."""
+    import typing
+
+    model: Any = Design
+    info = None
+    for part in loc:
+        if isinstance(part, int):
+            continue
+        if model is None or part not in getattr(model, "model_fields", {}):
+            return None
+        info = model.model_fields[part]
+        model = None
+        stack = [info.annotation]
+        while stack:
+            a = stack.pop()
+            if isinstance(a, type) and issubclass(a, BaseModel):
+                model = a
+                break
+            stack += list(typing.get_args(a))
+    return info
+
+
 class _Model(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True, validate_default=True,
                               allow_inf_nan=False)
@@ -88,7 +124,7 @@ class _Model(BaseModel):
         """A boolean or a string where a number belongs is refused (``true`` would become
         1, ``"22"`` 22.0 silently)."""
         if isinstance(data, dict):
-            bad = [f"{k}: expected a number{_bounds(cls.model_fields[k])}, got {v!r}"
+            bad = [f"{k}: expected a number{_allowed_number(cls.model_fields[k])}, got {v!r}"
                    for k, v in data.items()
                    if k in cls.model_fields and isinstance(v, (bool, str))
                    and _is_number_type(cls.model_fields[k].annotation)]
@@ -421,6 +457,10 @@ def _format(exc: ValidationError) -> list[str]:
             out.append(f"{path}: renamed to {RENAMED[path]} (same meaning and range)")
         elif err["type"] == "extra_forbidden":
             out.append(f"{path}: unknown key (value {err['input']!r}); check the spelling")
+        elif err["type"] == "finite_number":
+            info = _field_at(tuple(err["loc"]))
+            allowed = _allowed_number(info) if info is not None else ""
+            out.append(f"{path}: expected a finite number{allowed}, got {err['input']!r}")
         elif "expected a number" in msg:
             out += [f"{path}.{m.strip()}" if path != "design" else m.strip()
                     for m in msg.split(PROBLEM_SEP)]
