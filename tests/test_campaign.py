@@ -220,6 +220,18 @@ def test_export_round_trip(local_store, tmp_path):
     table = pq.read_table(export(store, tmp_path / "t.parquet")).to_pydict()
     assert table["sample_id"] == [r["sample_id"] for r in rows]
     assert np.allclose(table["moment_10"], [r["curve"]["moment"][10] for r in rows])
+    # pile forces, timings, model size and provenance travel with every row
+    for t, r in zip(table["sample_id"], rows, strict=True):
+        assert t == r["sample_id"]
+    for k, r in enumerate(rows):
+        for pile in r["piles"]:
+            for part in ("max_compression", "max_tension", "max_bending_moment"):
+                assert table[f"pile.{pile['row']}.{part}"][k] == pytest.approx(pile[part],
+                                                                             rel=1e-12)
+        assert table["time.total_s"][k] == pytest.approx(r["timings"]["total_s"], rel=1e-12)
+        assert table["model.dofs"][k] == r["model"]["dofs"]
+        assert table["prov.tiltfe"][k] == r["provenance"]["tiltfe"]
+        assert table["finished_at"][k] == pytest.approx(r["finished_at"], rel=1e-12)
 
 
 def _children(pid: int) -> set[int]:
@@ -509,6 +521,47 @@ def test_bad_space_names_field_value_and_allowed(case):
         space_from_dict(data)
     assert time.perf_counter() - t < 1.0  # refused up front, before any run
     assert field in str(info.value) and allowed in str(info.value), str(info.value)
+
+
+def _space_toml(data: dict) -> str:
+    """A space dict as TOML (test inputs only: scalars, tables, arrays of tables)."""
+    def value(v):
+        if isinstance(v, bool):
+            return "true" if v else "false"
+        if isinstance(v, str):
+            return json.dumps(v)
+        if isinstance(v, list):
+            return "[" + ", ".join(value(x) for x in v) + "]"
+        return repr(v)
+
+    head, tail = [], []
+    for k, v in data.items():
+        if isinstance(v, dict):
+            tail += [f"[{k}]"] + [f"{a} = {value(b)}" for a, b in v.items()]
+        elif isinstance(v, list) and v and isinstance(v[0], dict):
+            for item in v:
+                tail += [f"[[{k}]]"] + [f"{a} = {value(b)}" for a, b in item.items()]
+        else:
+            head.append(f"{k} = {value(v)}")
+    return "\n".join(head + tail) + "\n"
+
+
+@pytest.mark.parametrize("case", list(BAD_SPACES))
+def test_bad_space_on_the_command_line_exit_2(tmp_path, capsys, case):
+    """The same bad spaces through ``tiltfe campaign run``: exit 2, no traceback, the field
+    named, and no store created."""
+    from femcore.workflows import cli
+
+    change, field, _ = BAD_SPACES[case]
+    data = copy.deepcopy(GOOD)
+    change(data)
+    path = tmp_path / "bad_space.toml"
+    path.write_text(_space_toml(data))
+    store = tmp_path / "never.sqlite"
+    assert cli.main(["campaign", "run", str(path), "--store", str(store)]) == 2
+    err = capsys.readouterr().err
+    assert field in err and "Traceback" not in err, err
+    assert not store.exists()
 
 
 def test_good_space_and_json_schema(tmp_path):

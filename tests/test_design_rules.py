@@ -42,3 +42,6 @@ def test_one_soil_depth_rule():
     data["soil"]["layers"][-1]["thickness"] = 29.0  # total 16.5 + 29 = 45.5 m < 46.21 m
     msg = [p for p in _problems(data) if p.startswith("soil.layers")]
     assert len(msg) == 1 and "45.50 m" in msg[0] and "46.21 m" in msg[0]
+    # one problem, one line: its advice after the semicolon stays with it
+    assert msg[0].endswith("; thicken the last layer")
+    assert not [p for p in _problems(data) if p.startswith(("design:", "thicken"))]

@@ -464,7 +464,7 @@ def _format(exc: ValidationError) -> list[str]:
         elif "expected a number" in msg:
             out += [f"{path}.{m.strip()}" if path != "design" else m.strip()
                     for m in msg.split(PROBLEM_SEP)]
-        elif PROBLEM_SEP in msg and path == "design":
+        elif path == "design" and err["type"] == "value_error":  # the design-wide checks
             out += [m.strip() for m in msg.split(PROBLEM_SEP)]
         else:
             out.append(f"{path}: {msg} (got {err['input']!r})" if "input" in err and not
