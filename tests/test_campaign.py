@@ -341,6 +341,41 @@ def test_sigint_lock_and_killed_coordinator(tmp_path):
     assert again.returncode == 0, again.stderr
 
 
+class _FullDisk:
+    """An SQLite connection stand-in whose every write fails as on a full disk."""
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
+
+    def execute(self, *args):
+        raise sqlite3.OperationalError("database or disk is full")
+
+    def close(self):
+        pass
+
+
+def test_read_only_store_and_full_disk_are_named(tmp_path):
+    """SQLite's own errors become one message naming the store and what to do."""
+    path = tmp_path / "ro.sqlite"
+    Store(path).close()
+    rec = RunRecord("ok", "fine")
+    sample = {"id": 0, "set": "train", "unit": [0.5]}
+    with Store(path, mode="read") as ro, pytest.raises(
+            StoreError, match=r"ro.sqlite: cannot be written \(the file or its folder is "
+                              r"read-only\)"):
+        ro.add(sample, {}, rec, {})
+    st = Store(path)
+    st.db.close()
+    st.db = _FullDisk()
+    with pytest.raises(StoreError, match="the disk is full .every run finished before is "
+                       "kept"):
+        st.add(sample, {}, rec, {})
+    assert Store(path, mode="read").rows() == []
+
+
 def test_store_lock_is_held_until_close(tmp_path):
     path = tmp_path / "locked.sqlite"
     first = Store(path)

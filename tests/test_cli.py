@@ -368,6 +368,18 @@ def _store(tmp: Path) -> Path:
     return p
 
 
+def _latin1(tmp: Path) -> Path:
+    p = tmp / "latin1.toml"
+    p.write_bytes('base = "d\u00e9sign.toml"\n'.encode("latin-1"))
+    return p
+
+
+def _space_without_base(tmp: Path) -> Path:
+    p = tmp / "nobase.toml"
+    p.write_text(_tiny_space(tmp).read_text().replace(SMALL.as_posix(), "gone.toml"))
+    return p
+
+
 ENVIRONMENT = {  # id: (argv from the tmp folder, text the message must hold)
     "status_not_sqlite": (lambda t: ["campaign", "status", str(_not_sqlite(t))],
                           "notes.sqlite: is not a campaign store (not an SQLite database"),
@@ -406,6 +418,13 @@ ENVIRONMENT = {  # id: (argv from the tmp folder, text the message must hold)
                                      str(t / "s.sqlite")], "nope.toml: no such file"),
     "run_space_not_toml": (lambda t: ["campaign", "run", str(_not_sqlite(t)), "--store",
                                       str(t / "s.sqlite")], "notes.sqlite: not valid TOML"),
+    "run_space_folder": (lambda t: ["campaign", "run", str(t), "--store",
+                                    str(t / "s.sqlite")], "is a folder, not a TOML file"),
+    "run_space_not_utf8": (lambda t: ["campaign", "run", str(_latin1(t)), "--store",
+                                      str(t / "s.sqlite")], "latin1.toml: not UTF-8 text"),
+    "run_base_missing": (lambda t: ["campaign", "run", str(_space_without_base(t)),
+                                    "--store", str(t / "s.sqlite")],
+                         "base = 'gone.toml': no such file"),
     "run_out_is_file": (lambda t: ["run", str(SMALL), "--out", str(_not_sqlite(t))],
                         "cannot create the folder"),
     "run_design_folder": (lambda t: ["run", str(t)], "is a folder, not a design file"),

@@ -308,11 +308,19 @@ def _toml_load(path: Path, what: str) -> dict:
         import tomllib
     else:  # pragma: no cover
         import tomli as tomllib
+    where = "" if str(path) == what else f" ({path})"
+    if path.is_dir():
+        raise SpaceError(f"{what}: is a folder{where}, not a TOML file")
     if not path.is_file():
-        raise SpaceError(f"{what}: no such file" + ("" if str(path) == what else f" ({path})"))
+        raise SpaceError(f"{what}: no such file{where}")
     try:
-        return tomllib.loads(path.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        return tomllib.loads(path.read_text(encoding="utf-8-sig"))
+    except OSError as exc:
+        raise SpaceError(f"{what}: cannot be read{where} ({exc.strerror or exc})") from None
+    except UnicodeDecodeError as exc:
+        raise SpaceError(f"{what}: not UTF-8 text{where} ({exc.reason} at byte "
+                         f"{exc.start})") from None
+    except tomllib.TOMLDecodeError as exc:
         raise SpaceError(f"{what}: not valid TOML ({exc})") from None
 
 
