@@ -231,6 +231,7 @@ def _provenance(design_data: dict) -> dict:
             "element": an.get("element", "T15"), "support": an.get("support", "continuum")}
 
 
+LOG_EVERY_S = 30.0  # s between progress lines when stderr is not a terminal
 GRACE_S = 3.0  # s: after a stop request, runs finishing within this are still stored
 SCHEDULER_TIMEOUT_S = 5.0
 
@@ -345,6 +346,8 @@ class _Progress:
         self.done = self.failed = self.ran = 0
         self.t0 = time.perf_counter()
         self.stream = sys.stderr
+        self.tty = bool(getattr(self.stream, "isatty", lambda: False)())
+        self.last = float("-inf")
 
     def add(self, rec: RunRecord, ran: bool = True) -> None:
         self.done += 1
@@ -357,12 +360,17 @@ class _Progress:
         left = (self.total - self.done) / rate if self.ran and rate > 0 else None
         eta = "" if left is None or self.done >= self.total else \
             f", about {left / 60:.0f} min left" if left >= 90 else f", about {left:.0f} s left"
-        self.stream.write(f"\r  {self.done}/{self.total} recorded, {self.failed} failed, "
-                          f"{rate * 3600:.0f} runs/hour{eta}   ")
+        line = (f"  {self.done}/{self.total} recorded, {self.failed} failed, "
+                f"{rate * 3600:.0f} runs/hour{eta}")
+        if self.tty:  # one line, rewritten in place
+            self.stream.write(f"\r{line}   ")
+        elif elapsed - self.last >= LOG_EVERY_S or self.done == self.total:
+            self.stream.write(line + "\n")  # a log file: a line now and then
+            self.last = elapsed
         self.stream.flush()
 
     def end(self) -> None:
-        if not self.quiet and self.done:
+        if not self.quiet and self.done and self.tty:
             self.stream.write("\n")
             self.stream.flush()
 
