@@ -349,12 +349,16 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(func=_cmd_info)
     p = sub.add_parser("campaign", help="training-data campaigns over a design space")
     csub = p.add_subparsers(dest="campaign_command", metavar="ACTION", required=True)
-    c = csub.add_parser("run", help="run or resume a campaign")
+    c = csub.add_parser("run", help="run or resume a campaign", epilog="Ctrl-C stops it "
+                        "within seconds, keeping every finished run (exit code 130); the "
+                        "same command resumes.")
     c.add_argument("space", help="space file (TOML)")
-    c.add_argument("--store", required=True, help="SQLite store (created or resumed)")
+    c.add_argument("--store", required=True, help="SQLite store (created or resumed; locked "
+                   "while the run goes on)")
     c.add_argument("--workers", type=int, help="local worker processes (default: all cores)")
     c.add_argument("--scheduler", help="Dask scheduler address (needs dask.distributed)")
-    c.add_argument("--limit", type=int, help="run at most this many samples now")
+    c.add_argument("--limit", type=int, help="run at most this many of the remaining samples "
+                   "now (0 or more; the same command without it runs the rest)")
     c.add_argument("--quiet", action="store_true")
     c.set_defaults(func=_cmd_campaign_run)
     c = csub.add_parser("status", help="counts by status, failure rate, time to finish")

@@ -3,8 +3,9 @@
 Tables:
 
 * ``meta(key, value)``: JSON values: ``space`` (the space file as read), ``space_digest``
-  (its identity: a store holds the runs of one space only), ``base_digest`` (identity of the
-  base design), ``planned`` (number of samples), ``layout`` (this row layout's version);
+  (its identity: a store holds the runs of one space only), ``base`` and ``base_digest``
+  (the base design with the space's overrides and the schema's defaults, and its identity),
+  ``planned`` (number of samples), ``layout`` (this row layout's version);
 * ``runs``: one row per sample id: ``sample_set`` (train | holdout), ``unit`` (the unit-cube
   point), ``inputs`` (the whole design of the sample), the :class:`RunRecord` columns
   (``status``, ``message``, ``attempts``, ``seconds``, ``keypoints`` {name: value},
@@ -15,7 +16,11 @@ Tables:
   Nested values are JSON text; NULL where a run produced nothing.
 
 Only the coordinating process writes, one transaction per finished run, so a killed campaign
-loses at most the runs in flight and a new ``run`` skips the finished ids (resume). A store
+loses at most the runs in flight and a new ``run`` skips the finished ids (resume). The
+coordinator holds ``STORE.lock`` (an ``flock``, released with the process however it ends)
+for the whole run; a second coordinator is refused. A changed space file or base design is
+refused naming the values that changed. ``status`` and ``export`` open the store read-only
+and may run beside a campaign. A store
 written before the requirement and dynamic columns existed opens unchanged: the missing
 columns are added (NULL for the old rows).
 
