@@ -52,7 +52,8 @@ from numpy.typing import NDArray
 from .base import MaterialParameterError, State
 from .elastic import elastic_matrix
 
-__all__ = ["MohrCoulomb", "principal_return", "mohr_coulomb_update", "region_name"]
+__all__ = ["MohrCoulomb", "principal_return", "mohr_coulomb_update", "mohr_coulomb_update_3d",
+           "region_name"]
 
 _MC13, _MC23, _MC12, _T1, _T2, _T3 = range(6)
 _PLANE_NAMES = ("MC13", "MC23", "MC12", "T1", "T2", "T3")
@@ -234,6 +235,82 @@ def mohr_coulomb_update(trial, G, K, c, sin_phi, sin_psi, cos_phi, t, tangent):
                     + 2.0 * G[P][:, None, None] * H_abz)
     M[:, 3, 3] = spin * G[P]
     tangent[P] = np.matmul(np.matmul(Rs_inv, M), _rotation(alpha, strain=True))
+    return stress, yielded, region
+
+
+_ROOT2 = np.sqrt(2.0)
+# Voigt order of the six-component update: 11, 22, 33, 12, 23, 13
+_PAIRS = ((0, 1), (1, 2), (0, 2))
+
+
+def _mandel(A: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Mandel vectors ``(..., 6)`` of symmetric tensors ``(..., 3, 3)``."""
+    return np.stack([A[..., 0, 0], A[..., 1, 1], A[..., 2, 2], _ROOT2 * A[..., 0, 1],
+                     _ROOT2 * A[..., 1, 2], _ROOT2 * A[..., 0, 2]], axis=-1)
+
+
+def mohr_coulomb_update_3d(trial, G, K, c, sin_phi, sin_psi, cos_phi, t, tangent):
+    """Return map of general trial stresses ``(n, 6)`` (no principal axis assumed).
+
+    Components in the order 11, 22, 33, 12, 23, 13, stress with tensor shear; ``tangent
+    (n, 6, 6)`` maps strain with engineering shear to stress. It holds the elastic matrix on
+    entry and is overwritten at plastic points with the consistent tangent.
+
+    The trial stress is diagonalised (``eigh``); the sorted principal values are returned by
+    :func:`principal_return` (isotropy: the principal axes do not change) and the stress is
+    rebuilt on the trial axes. The tangent is the derivative of this isotropic tensor
+    function, ``dsigma/dsigma* = sum_ij H_ij E_i (x) E_j + sum_{i<j} (s_i - s_j) /
+    (s*_i - s*_j) m_ij (x) m_ij`` (E_i = v_i v_i, m_ij = (v_i v_j + v_j v_i) / sqrt 2, in
+    Mandel form; de Souza Neto, Peric & Owen 2008, *Computational Methods for Plasticity*,
+    appendix A), times the elastic matrix. Where two trial principal values coincide the
+    ratio takes its limit ``(H_ii - H_ij - H_ji + H_jj) / 2``.
+
+    Returns stress ``(n, 6)``, yielded ``(n,)`` and region ``(n,)`` (-3 for elastic points).
+    """
+    n = trial.shape[0]
+    T = np.empty((n, 3, 3))
+    T[:, 0, 0], T[:, 1, 1], T[:, 2, 2] = trial[:, 0], trial[:, 1], trial[:, 2]
+    T[:, 0, 1] = T[:, 1, 0] = trial[:, 3]
+    T[:, 1, 2] = T[:, 2, 1] = trial[:, 4]
+    T[:, 0, 2] = T[:, 2, 0] = trial[:, 5]
+    w, V = np.linalg.eigh(T)  # ascending
+    s_sorted, V = w[:, ::-1], V[:, :, ::-1]  # s1 >= s2 >= s3, columns v1 v2 v3
+    f_max = ((1.0 + sin_phi) * s_sorted[:, 0] - (1.0 - sin_phi) * s_sorted[:, 2]
+             - 2.0 * c * cos_phi)
+    if t is not None:
+        f_max = np.maximum(f_max, s_sorted[:, 0] - t)
+    scale = np.maximum(np.abs(s_sorted).max(axis=1), np.maximum(np.abs(c), 1.0))
+    P = np.flatnonzero(f_max > 1e-10 * scale)
+    stress = trial.copy()
+    region = np.full(n, -3, dtype=np.int64)
+    yielded = np.zeros(n, dtype=bool)
+    if P.size == 0:
+        return stress, yielded, region
+    yielded[P] = True
+    s_ret, H, region[P] = principal_return(
+        s_sorted[P], G[P], K[P], c[P], sin_phi, sin_psi, cos_phi, None if t is None else t[P])
+    Vp = V[P]  # (m, 3, 3)
+    S = np.einsum("mik,mk,mjk->mij", Vp, s_ret, Vp)
+    stress[P] = np.stack([S[:, 0, 0], S[:, 1, 1], S[:, 2, 2], S[:, 0, 1], S[:, 1, 2],
+                          S[:, 0, 2]], axis=1)
+    # Mandel basis of the trial axes: E_i (diagonal) and m_ij (shear), each (m, 6)
+    E = [_mandel(np.einsum("mi,mj->mij", Vp[:, :, i], Vp[:, :, i])) for i in range(3)]
+    dS = np.einsum("mij,mia,mjb->mab", H, np.stack(E, axis=1), np.stack(E, axis=1))
+    for i, j in _PAIRS:
+        vi, vj = Vp[:, :, i], Vp[:, :, j]
+        mij = _mandel((np.einsum("mi,mj->mij", vi, vj) + np.einsum("mi,mj->mij", vj, vi))
+                      / _ROOT2)
+        gap = s_sorted[P, i] - s_sorted[P, j]
+        small = np.abs(gap) <= 1e-12 * scale[P]
+        ratio = np.where(small, 0.5 * (H[:, i, i] - H[:, i, j] - H[:, j, i] + H[:, j, j]),
+                         (s_ret[:, i] - s_ret[:, j]) / np.where(small, 1.0, gap))
+        dS += ratio[:, None, None] * mij[:, :, None] * mij[:, None, :]
+    lam = K[P] - 2.0 * G[P] / 3.0
+    D = 2.0 * G[P][:, None, None] * np.eye(6)  # elastic matrix in Mandel form
+    D[:, :3, :3] += lam[:, None, None]
+    C = np.matmul(dS, D)  # Mandel: stress_M = C strain_M
+    w6 = np.array([1.0, 1.0, 1.0, 1.0 / _ROOT2, 1.0 / _ROOT2, 1.0 / _ROOT2])
+    tangent[P] = w6[None, :, None] * C * w6[None, None, :]  # to tensor / engineering shear
     return stress, yielded, region
 
 
