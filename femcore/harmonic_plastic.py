@@ -1,0 +1,121 @@
+"""Mohr-Coulomb soil in the harmonic model: stresses on circumferential planes, coupled
+harmonics.
+
+The soil's strain amplitudes of every harmonic are synthesised on the planes of a
+:class:`~femcore.harmonic_planes.CircumferentialPlanes` at every quadrature point, the
+six-component return map (:func:`materials.mohr_coulomb.mohr_coulomb_update_3d`) runs on
+each plane, and the stresses and consistent tangents are projected back::
+
+    f_n   = c-weighted  sum_q B_n^T s_n dV              s_n  = sum_k w_k T_n sigma_k
+    K_nm  = sum_q B_n^T D_nm B_m dV                      D_nm = sum_k w_k T_n C_k T_m
+
+(the harmonic factors are inside the plane weights). Elastic everywhere, K_nm is the
+block-diagonal harmonic stiffness (``delta_nm c_n B^T D B dV``); where the soil yields on some
+planes only, the blocks between harmonics appear (unsymmetric for non-associated flow).
+
+The state is per plane and quadrature point: the stress ``(m, c, q, 6)`` and the total strain
+``(m, c, q, 6)`` of the last converged increment (the initial K0 stress is the starting stress,
+the same on every plane).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+
+from materials.mohr_coulomb import mohr_coulomb_update_3d
+
+from .harmonic import HarmonicGeometry, RingGeometry, elastic_matrix_3d
+from .harmonic_planes import CircumferentialPlanes
+
+__all__ = ["PlaneState", "HarmonicMohrCoulomb"]
+
+
+@dataclass
+class PlaneState:
+    """Stress and total strain on every plane and quadrature point, ``(m, c, q, 6)``
+    each (stress kPa with tensor shear, strain with engineering shear)."""
+
+    stress: NDArray[np.float64]
+    strain: NDArray[np.float64]
+    yielded: NDArray[np.bool_]  # (m, c, q)
+
+
+@dataclass(eq=False)
+class HarmonicMohrCoulomb:
+    """Cells of one Mohr-Coulomb material (Tresca: phi = psi = 0) in a harmonic model.
+
+    ``E``, ``nu``, ``cohesion`` and ``cutoff`` (tension cut-off, None for none) are per
+    quadrature point ``(c, q)``; the angles are one per block, in degrees.
+    """
+
+    ring: RingGeometry
+    element_dofs: NDArray[np.int64]  # (c, i)
+    planes: CircumferentialPlanes
+    E: NDArray[np.float64]
+    nu: NDArray[np.float64]
+    cohesion: NDArray[np.float64]
+    phi: float = 0.0
+    psi: float = 0.0
+    cutoff: NDArray[np.float64] | None = None
+    _geoms: dict[int, HarmonicGeometry] = field(default_factory=dict, init=False, repr=False)
+
+    def geometry(self, n: int) -> HarmonicGeometry:
+        if n not in self._geoms:
+            self._geoms[n] = self.ring.harmonic(n)
+        return self._geoms[n]
+
+    @property
+    def D(self) -> NDArray[np.float64]:
+        return elastic_matrix_3d(self.E, self.nu)  # (c, q, 6, 6)
+
+    def initial_state(self, stress0: NDArray[np.float64]) -> PlaneState:
+        """The state of an initial stress ``(c, q, 6)`` (the n = 0 field, e.g. K0) on every
+        plane, with zero strain."""
+        m = self.planes.n_planes
+        s = np.broadcast_to(np.asarray(stress0, dtype=np.float64),
+                            (m, *self.E.shape, 6)).copy()
+        return PlaneState(s, np.zeros_like(s), np.zeros((m, *self.E.shape), dtype=bool))
+
+    def strain_amplitudes(self, u: NDArray[np.float64]) -> NDArray[np.float64]:
+        """``(h, c, q, 6)`` from the amplitude vectors ``u (h, n_dofs)`` of the harmonics."""
+        return np.stack([self.geometry(n).strain(u[a][self.element_dofs])
+                         for a, n in enumerate(self.planes.harmonics)])
+
+    def response(self, u: NDArray[np.float64], state: PlaneState):
+        """Internal forces ``(h, c, i)``, tangent blocks ``(h, h, c, i, i)`` and the new
+        :class:`PlaneState` for total amplitudes ``u (h, n_dofs)`` from the converged
+        ``state``."""
+        pl = self.planes
+        m, h = pl.n_planes, len(pl.harmonics)
+        eps = pl.to_planes(self.strain_amplitudes(u))  # (m, c, q, 6)
+        D = self.D  # (c, q, 6, 6)
+        trial = state.stress + np.einsum("cqij,kcqj->kcqi", D, eps - state.strain)
+        shape = trial.shape
+        n_pts = int(np.prod(shape[:-1]))
+        Dk = np.broadcast_to(D, (m, *D.shape)).reshape(n_pts, 6, 6).copy()
+        G = np.broadcast_to(self.E / (2.0 * (1.0 + self.nu)), shape[:-1]).reshape(-1)
+        K = np.broadcast_to(self.E / (3.0 * (1.0 - 2.0 * self.nu)), shape[:-1]).reshape(-1)
+        c = np.broadcast_to(self.cohesion, shape[:-1]).reshape(-1)
+        t = None if self.cutoff is None else \
+            np.broadcast_to(self.cutoff, shape[:-1]).reshape(-1)
+        sp, ss = np.sin(np.radians(self.phi)), np.sin(np.radians(self.psi))
+        stress, yielded, _ = mohr_coulomb_update_3d(
+            trial.reshape(n_pts, 6), G, K, c, sp, ss, np.cos(np.radians(self.phi)), t, Dk)
+        stress = stress.reshape(shape)
+        C = Dk.reshape(*shape, 6)  # (m, c, q, 6, 6)
+        s_amp = pl.to_harmonics(stress)  # (h, c, q, 6)
+        f = np.stack([self.geometry(n).internal_force(s_amp[a])
+                      for a, n in enumerate(pl.harmonics)])  # (h, c, i)
+        Dnm = pl.coupled_tangent(C)  # (h, h, c, q, 6, 6)
+        Kb = np.empty((h, h, *self.element_dofs.shape, self.element_dofs.shape[1]))
+        for a, n in enumerate(pl.harmonics):  # h^2 blocks (harmonic pairs, not elements)
+            ga = self.geometry(n)
+            for b, k in enumerate(pl.harmonics):
+                Bb = self.geometry(k).B  # (c, q, 6, i)
+                DB = np.matmul(Dnm[a, b], Bb)  # (c, q, 6, i)
+                n_c, n_q, n_k, n_i = Bb.shape
+                Kb[a, b] = np.matmul(ga.BtdV, DB.reshape(n_c, n_q * n_k, n_i))
+        return f, Kb, PlaneState(stress, eps, yielded.reshape(shape[:-1]))
