@@ -23,6 +23,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+import scipy.sparse as sp
 from numpy.typing import NDArray
 
 from materials.mohr_coulomb import mohr_coulomb_update_3d
@@ -30,7 +31,7 @@ from materials.mohr_coulomb import mohr_coulomb_update_3d
 from .harmonic import HarmonicGeometry, RingGeometry, elastic_matrix_3d
 from .harmonic_planes import CircumferentialPlanes
 
-__all__ = ["PlaneState", "HarmonicMohrCoulomb"]
+__all__ = ["PlaneState", "HarmonicMohrCoulomb", "assemble_coupled", "assemble_forces"]
 
 
 @dataclass
@@ -119,3 +120,26 @@ class HarmonicMohrCoulomb:
                 n_c, n_q, n_k, n_i = Bb.shape
                 Kb[a, b] = np.matmul(ga.BtdV, DB.reshape(n_c, n_q * n_k, n_i))
         return f, Kb, PlaneState(stress, eps, yielded.reshape(shape[:-1]))
+
+
+def assemble_coupled(Kb: NDArray[np.float64], element_dofs: NDArray[np.int64],
+                     n_dofs: int) -> sp.csr_matrix:
+    """The coupled sparse tangent ``(h n_dofs, h n_dofs)`` of element blocks
+    ``Kb (h, h, e, i, i)``: harmonic a's DOFs are ``a * n_dofs + dof`` (harmonic-major)."""
+    h = Kb.shape[0]
+    off = np.arange(h) * n_dofs  # (h,)
+    rows = off[:, None, None, None, None] + element_dofs[None, None, :, :, None]
+    cols = off[None, :, None, None, None] + element_dofs[None, None, :, None, :]
+    rows, cols = np.broadcast_arrays(rows, cols, Kb)[:2]
+    A = sp.coo_matrix((Kb.ravel(), (rows.ravel(), cols.ravel())),
+                      shape=(h * n_dofs, h * n_dofs))
+    return A.tocsr()
+
+
+def assemble_forces(f: NDArray[np.float64], element_dofs: NDArray[np.int64],
+                    n_dofs: int) -> NDArray[np.float64]:
+    """Nodal force amplitudes ``(h * n_dofs,)`` (harmonic-major) of element forces
+    ``f (h, e, i)``."""
+    h = f.shape[0]
+    idx = (np.arange(h)[:, None, None] * n_dofs + element_dofs[None]).ravel()
+    return np.bincount(idx, weights=f.ravel(), minlength=h * n_dofs)
