@@ -32,8 +32,9 @@ SPACE = ROOT / "examples" / "fennwick_space.toml"
 
 
 def _space(folder: Path) -> Path:
-    text = SPACE.read_text(encoding="utf-8").replace(
-        'base = "fennwick_fw07.toml"', f'base = "{(SPACE.parent / "fennwick_fw07.toml").as_posix()}"')
+    base = (SPACE.parent / "fennwick_fw07.toml").as_posix()
+    text = SPACE.read_text(encoding="utf-8").replace('base = "fennwick_fw07.toml"',
+                                                     f'base = "{base}"')
     text = text.replace("design_strength = true", "design_strength = false")
     out = folder / "space.toml"
     out.write_text(text, encoding="utf-8")

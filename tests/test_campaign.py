@@ -43,8 +43,8 @@ from femcore.workflows.campaign import (
     space_json_schema,
     status_summary,
 )
-from femcore.workflows.campaign.store import StoreError
 from femcore.workflows.campaign.space import space_from_dict
+from femcore.workflows.campaign.store import StoreError
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "examples" / "fennwick_fw07.toml"

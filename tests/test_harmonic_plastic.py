@@ -8,7 +8,6 @@ yields; the consistent tangent against central finite differences of the interna
 """
 
 import numpy as np
-import pytest
 
 from femcore.harmonic import HarmonicDofMap, elastic_matrix_3d, harmonic_factor, ring_geometry
 from femcore.harmonic_planes import CircumferentialPlanes

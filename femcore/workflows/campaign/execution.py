@@ -40,9 +40,9 @@ from typing import Any
 import numpy as np
 
 from .paths import SpaceError
+from .pool import WorkerPool
 from .sampling import sample_space
 from .space import design_dict, load_space
-from .pool import WorkerPool
 from .store import FINISHED, RunRecord, Store, status_summary
 
 __all__ = ["ROTATION_GRID_POINTS", "rotation_grid", "run_sample", "run_campaign",
