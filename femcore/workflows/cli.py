@@ -295,8 +295,11 @@ def _print_status(summary: dict) -> None:
     if summary["mean_run_seconds"] is not None:
         print(f"mean run time  {summary['mean_run_seconds']:.2f} s")
     if summary["remaining"] and summary["time_to_finish_s"] is not None:
-        print(f"time to finish about {summary['time_to_finish_s'] / 60:.1f} min "
-              f"({summary['remaining']} remaining, all local cores)")
+        left = summary["time_to_finish_s"]
+        when = f"{left / 3600:.1f} h" if left >= 5400 else \
+            f"{left / 60:.0f} min" if left >= 90 else f"{left:.0f} s"
+        print(f"time to finish about {when} ({summary['remaining']} remaining, all local "
+              "cores)")
 
 
 def _cmd_campaign_status(args: argparse.Namespace) -> int:
