@@ -31,7 +31,8 @@ from materials.mohr_coulomb import mohr_coulomb_update_3d
 from .harmonic import HarmonicGeometry, RingGeometry, elastic_matrix_3d
 from .harmonic_planes import CircumferentialPlanes
 
-__all__ = ["PlaneState", "HarmonicMohrCoulomb", "assemble_coupled", "assemble_forces"]
+__all__ = ["PlaneState", "HarmonicMohrCoulomb", "assemble_coupled", "assemble_forces",
+           "solve_displacement_step", "HarmonicStepError"]
 
 
 @dataclass
@@ -143,3 +144,46 @@ def assemble_forces(f: NDArray[np.float64], element_dofs: NDArray[np.int64],
     h = f.shape[0]
     idx = (np.arange(h)[:, None, None] * n_dofs + element_dofs[None]).ravel()
     return np.bincount(idx, weights=f.ravel(), minlength=h * n_dofs)
+
+
+class HarmonicStepError(RuntimeError):
+    """Newton's method did not converge in a displacement-controlled step."""
+
+
+def solve_displacement_step(block: HarmonicMohrCoulomb, n_dofs: int, u: NDArray[np.float64],
+                            fixed: NDArray[np.int64], values: NDArray[np.float64],
+                            state: PlaneState, tol: float = 1e-9, max_iter: int = 25):
+    """One step of the coupled harmonics under prescribed amplitudes and no other load.
+
+    ``u (h, n_dofs)`` the converged amplitudes, ``fixed`` harmonic-major DOF indices
+    (``a * n_dofs + dof``) prescribed to ``values``; every other DOF is free and unloaded.
+    A tangent predictor from the converged state, then Newton's method on the coupled
+    sparse tangent (sparse direct solve), converged when the
+    free residual is below ``tol`` times the largest internal force. Returns the new
+    amplitudes, the assembled internal forces (the reactions at the fixed DOFs), the new
+    :class:`PlaneState` and the iteration count; :class:`HarmonicStepError` if it fails.
+    """
+    import scipy.sparse.linalg as spla
+
+    h = u.shape[0]
+    x = u.reshape(-1).copy()
+    free = np.setdiff1d(np.arange(h * n_dofs), fixed)
+    # tangent predictor: the free DOFs follow the prescribed increment through the tangent
+    # of the converged state (else the first iterate strains one layer of cells alone)
+    _, Kb0, _ = block.response(u, state)
+    A0 = assemble_coupled(Kb0, block.element_dofs, n_dofs).tocsr()
+    jump = np.zeros(h * n_dofs)
+    jump[fixed] = values - x[fixed]
+    x[free] -= spla.spsolve(A0[free][:, free].tocsc(), (A0 @ jump)[free])
+    x[fixed] = values
+    for it in range(1, max_iter + 1):
+        f_e, Kb, new = block.response(x.reshape(h, n_dofs), state)
+        F = assemble_forces(f_e, block.element_dofs, n_dofs)
+        r = F[free]
+        scale = max(np.abs(F).max(), 1e-300)
+        if np.abs(r).max() <= tol * scale:
+            return x.reshape(h, n_dofs), F, new, it
+        A = assemble_coupled(Kb, block.element_dofs, n_dofs)[free][:, free]
+        x[free] -= spla.spsolve(A.tocsc(), r)
+    raise HarmonicStepError(f"no convergence in {max_iter} Newton iterations (free residual "
+                            f"{np.abs(r).max() / scale:.2e} of the largest force)")
