@@ -41,7 +41,8 @@ def _space(folder: Path) -> Path:
     return out
 
 
-def _children(pid: int) -> set[int]:
+def children_of(pid: int) -> set[int]:
+    """Live child processes of ``pid`` (from /proc; Linux)."""
     out = set()
     for d in Path("/proc").iterdir():
         if d.name.isdigit():
@@ -54,7 +55,8 @@ def _children(pid: int) -> set[int]:
     return out
 
 
-def _alive(pids: set[int]) -> set[int]:
+def alive_of(pids: set[int]) -> set[int]:
+    """The processes of ``pids`` still running (zombies count as gone)."""
     out = set()
     for p in pids:
         try:
@@ -65,7 +67,8 @@ def _alive(pids: set[int]) -> set[int]:
     return out
 
 
-def _rows(store: Path) -> int:
+def store_rows(store: Path) -> int:
+    """Rows in a campaign store (0 while it does not exist yet)."""
     try:
         return sqlite3.connect(store).execute("SELECT COUNT(*) FROM runs").fetchone()[0]
     except sqlite3.Error:
@@ -89,23 +92,23 @@ def _stop_case(space: Path, store: Path, workers: int) -> dict:
                             text=True)
     out: dict = {}
     try:
-        _wait(lambda: _rows(store) >= 1, 180)
-        kids = _children(proc.pid)
+        _wait(lambda: store_rows(store) >= 1, 180)
+        kids = children_of(proc.pid)
         if workers > 1:
             t = time.monotonic()
             second = subprocess.run(cmd + ["--limit", "1"], env=env, capture_output=True,
                                     text=True)
             out["lock_refusal_s"] = time.monotonic() - t
             out["lock_refusal_exit_code"] = second.returncode
-        kept = _rows(store)
+        kept = store_rows(store)
         t = time.monotonic()
         proc.send_signal(signal.SIGINT)
         _, err = proc.communicate(timeout=60)
         out["stop_s"] = time.monotonic() - t
         out["exit_code"] = proc.returncode
         out["rows_before_signal"] = kept
-        out["rows_after"] = _rows(store)
-        gone = _wait(lambda: not _alive(kids), 10.0) if workers > 1 else 0.0
+        out["rows_after"] = store_rows(store)
+        gone = _wait(lambda: not alive_of(kids), 10.0) if workers > 1 else 0.0
         out["children_gone_s"] = gone  # workers and multiprocessing's resource tracker
         out["summary_line"] = err.strip().splitlines()[-1] if err.strip() else ""
     finally:
@@ -121,11 +124,11 @@ def _orphan_case(space: Path, store: Path) -> float | None:
     proc = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL,
                             stderr=subprocess.DEVNULL)
     try:
-        _wait(lambda: len(_children(proc.pid)) >= 2, 60)
-        kids = _children(proc.pid)
+        _wait(lambda: len(children_of(proc.pid)) >= 2, 60)
+        kids = children_of(proc.pid)
         proc.kill()
         proc.wait()
-        return _wait(lambda: not _alive(kids), 30)
+        return _wait(lambda: not alive_of(kids), 30)
     finally:
         if proc.poll() is None:
             proc.kill()

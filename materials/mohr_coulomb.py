@@ -167,6 +167,18 @@ def principal_return(s_trial: NDArray[np.float64], G, K, c, sin_phi: float, sin_
     return s_out, H, region
 
 
+def _plastic_points(s_sorted, c, sin_phi: float, cos_phi: float, t):
+    """Indices of sorted principal trial stresses ``(n, 3)`` outside the elastic domain, and
+    the stress scale ``(n,)`` of the tolerances. With s1 >= s2 >= s3 the largest MC plane is
+    MC13 and the largest cut-off plane is T1."""
+    f_max = ((1.0 + sin_phi) * s_sorted[:, 0] - (1.0 - sin_phi) * s_sorted[:, 2]
+             - 2.0 * c * cos_phi)
+    if t is not None:
+        f_max = np.maximum(f_max, s_sorted[:, 0] - t)
+    scale = np.maximum(np.abs(s_sorted).max(axis=1), np.maximum(np.abs(c), 1.0))
+    return np.flatnonzero(f_max > 1e-10 * scale), scale
+
+
 def _rotation(alpha: NDArray[np.float64], strain: bool = False) -> NDArray[np.float64]:
     """Rotation ``(n, 4, 4)`` of [xx, yy, zz, xy] into axes at angle alpha: stress (tensor
     shear) or, with ``strain=True``, strain with engineering shear."""
@@ -196,13 +208,7 @@ def mohr_coulomb_update(trial, G, K, c, sin_phi, sin_psi, cos_phi, t, tangent):
     p3 = np.stack([s_a, s_b, zz], axis=1)  # (n, 3) principal triple (a, b, z)
     order = np.argsort(-p3, axis=1, kind="stable")  # (n, 3) sorted position -> abz index
     s_sorted = np.take_along_axis(p3, order, axis=1)
-    # with s1 >= s2 >= s3 the largest MC plane is MC13 and the largest cut-off plane is T1
-    f_max = ((1.0 + sin_phi) * s_sorted[:, 0] - (1.0 - sin_phi) * s_sorted[:, 2]
-             - 2.0 * c * cos_phi)
-    if t is not None:
-        f_max = np.maximum(f_max, s_sorted[:, 0] - t)
-    scale = np.maximum(np.abs(s_sorted).max(axis=1), np.maximum(np.abs(c), 1.0))
-    P = np.flatnonzero(f_max > 1e-10 * scale)
+    P, scale = _plastic_points(s_sorted, c, sin_phi, cos_phi, t)
     stress = trial.copy()
     region = np.full(n, -3, dtype=np.int64)
     yielded = np.zeros(n, dtype=bool)
@@ -275,12 +281,7 @@ def mohr_coulomb_update_3d(trial, G, K, c, sin_phi, sin_psi, cos_phi, t, tangent
     T[:, 0, 2] = T[:, 2, 0] = trial[:, 5]
     w, V = np.linalg.eigh(T)  # ascending
     s_sorted, V = w[:, ::-1], V[:, :, ::-1]  # s1 >= s2 >= s3, columns v1 v2 v3
-    f_max = ((1.0 + sin_phi) * s_sorted[:, 0] - (1.0 - sin_phi) * s_sorted[:, 2]
-             - 2.0 * c * cos_phi)
-    if t is not None:
-        f_max = np.maximum(f_max, s_sorted[:, 0] - t)
-    scale = np.maximum(np.abs(s_sorted).max(axis=1), np.maximum(np.abs(c), 1.0))
-    P = np.flatnonzero(f_max > 1e-10 * scale)
+    P, scale = _plastic_points(s_sorted, c, sin_phi, cos_phi, t)
     stress = trial.copy()
     region = np.full(n, -3, dtype=np.int64)
     yielded = np.zeros(n, dtype=bool)

@@ -1,8 +1,42 @@
 """Shared helpers for the tests (plain functions; import them with ``from conftest import``)."""
 
+import json
+
 import numpy as np
 
 from femcore.mesh import Mesh
+
+
+def toml_text(data: dict) -> str:
+    """Minimal TOML writer for nested dicts / arrays of tables (test inputs only)."""
+    out: list[str] = []
+
+    def value(v):
+        if isinstance(v, bool):
+            return "true" if v else "false"
+        if isinstance(v, str):
+            return json.dumps(v)
+        if isinstance(v, list):
+            return "[" + ", ".join(value(x) for x in v) + "]"
+        return repr(v)
+
+    def table(prefix, d):
+        scalars = {k: v for k, v in d.items() if not isinstance(v, dict)
+                   and not (isinstance(v, list) and v and isinstance(v[0], dict))}
+        for k, v in scalars.items():
+            out.append(f"{k} = {value(v)}")
+        for k, v in d.items():
+            name = f"{prefix}.{k}" if prefix else k
+            if isinstance(v, dict):
+                out.append(f"[{name}]")
+                table(name, v)
+            elif isinstance(v, list) and v and isinstance(v[0], dict):
+                for item in v:
+                    out.append(f"[[{name}]]")
+                    table(name, item)
+
+    table("", data)
+    return "\n".join(out) + "\n"
 
 
 def straight_sided(mesh: Mesh, vertex_points: np.ndarray) -> Mesh:

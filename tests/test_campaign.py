@@ -23,7 +23,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import toml_text
 
+from benchmarks.faults import alive_of, children_of, store_rows
 from femcore.foundation.design import demo_design, design_from_dict, load_design
 from femcore.foundation.dynamic import dynamic_stiffness
 from femcore.foundation.run import run_design
@@ -234,40 +236,6 @@ def test_export_round_trip(local_store, tmp_path):
         assert table["finished_at"][k] == pytest.approx(r["finished_at"], rel=1e-12)
 
 
-def _children(pid: int) -> set[int]:
-    """Live child processes of ``pid`` (from /proc)."""
-    out = set()
-    for d in Path("/proc").iterdir():
-        if d.name.isdigit():
-            try:
-                stat = (d / "stat").read_text()
-            except OSError:
-                continue
-            fields = stat.rsplit(")", 1)[1].split()
-            if int(fields[1]) == pid and fields[0] != "Z":
-                out.add(int(d.name))
-    return out
-
-
-def _alive(pids: set[int]) -> set[int]:
-    alive = set()
-    for p in pids:
-        try:
-            state = Path(f"/proc/{p}/stat").read_text().rsplit(")", 1)[1].split()[0]
-        except OSError:
-            continue
-        if state != "Z":
-            alive.add(p)
-    return alive
-
-
-def _count_rows(store: Path) -> int:
-    try:
-        return sqlite3.connect(store).execute("SELECT COUNT(*) FROM runs").fetchone()[0]
-    except sqlite3.Error:
-        return 0
-
-
 def _wait_for(cond, timeout: float) -> bool:
     deadline = time.monotonic() + timeout
     while time.monotonic() < deadline:
@@ -297,15 +265,15 @@ def test_sigint_lock_and_killed_coordinator(tmp_path):
     proc = subprocess.Popen(cmd + ["--quiet"], env=env, stdout=subprocess.PIPE,
                             stderr=subprocess.PIPE, text=True)
     try:
-        assert _wait_for(lambda: _count_rows(store) >= 1 and len(_children(proc.pid)) >= 2,
+        assert _wait_for(lambda: store_rows(store) >= 1 and len(children_of(proc.pid)) >= 2,
                          120), "no run finished within 120 s"
-        workers = _children(proc.pid)
+        workers = children_of(proc.pid)
         second = subprocess.run(cmd + ["--limit", "1"], env=env, capture_output=True,
                                 text=True, timeout=60)
         assert second.returncode == 2, second.stderr
         assert "another campaign run is writing this store" in second.stderr
         assert "Traceback" not in second.stderr
-        kept = _count_rows(store)
+        kept = store_rows(store)
         assert proc.poll() is None, "the campaign ended before the signal"
         t = time.monotonic()
         proc.send_signal(signal.SIGINT)
@@ -321,17 +289,17 @@ def test_sigint_lock_and_killed_coordinator(tmp_path):
     rows = Store(store, mode="read").rows()
     assert kept <= len(rows) < 16  # finished rows kept, the rest not run
     assert all(r["status"] in FINISHED for r in rows)
-    assert _wait_for(lambda: not _alive(workers), 3.0), "worker processes left behind"
+    assert _wait_for(lambda: not alive_of(workers), 3.0), "worker processes left behind"
 
     # SIGKILL of the coordinator: its workers notice and leave; the lock is released
     proc = subprocess.Popen(cmd + ["--quiet"], env=env, stdout=subprocess.DEVNULL,
                             stderr=subprocess.DEVNULL)
     try:
-        assert _wait_for(lambda: len(_children(proc.pid)) >= 2, 60)
-        workers = _children(proc.pid)
+        assert _wait_for(lambda: len(children_of(proc.pid)) >= 2, 60)
+        workers = children_of(proc.pid)
         proc.kill()
         proc.wait()
-        assert _wait_for(lambda: not _alive(workers), 5.0), "workers outlived a killed " \
+        assert _wait_for(lambda: not alive_of(workers), 5.0), "workers outlived a killed " \
             "coordinator"
     finally:
         if proc.poll() is None:
@@ -558,29 +526,6 @@ def test_bad_space_names_field_value_and_allowed(case):
     assert field in str(info.value) and allowed in str(info.value), str(info.value)
 
 
-def _space_toml(data: dict) -> str:
-    """A space dict as TOML (test inputs only: scalars, tables, arrays of tables)."""
-    def value(v):
-        if isinstance(v, bool):
-            return "true" if v else "false"
-        if isinstance(v, str):
-            return json.dumps(v)
-        if isinstance(v, list):
-            return "[" + ", ".join(value(x) for x in v) + "]"
-        return repr(v)
-
-    head, tail = [], []
-    for k, v in data.items():
-        if isinstance(v, dict):
-            tail += [f"[{k}]"] + [f"{a} = {value(b)}" for a, b in v.items()]
-        elif isinstance(v, list) and v and isinstance(v[0], dict):
-            for item in v:
-                tail += [f"[[{k}]]"] + [f"{a} = {value(b)}" for a, b in item.items()]
-        else:
-            head.append(f"{k} = {value(v)}")
-    return "\n".join(head + tail) + "\n"
-
-
 @pytest.mark.parametrize("case", list(BAD_SPACES))
 def test_bad_space_on_the_command_line_exit_2(tmp_path, capsys, case):
     """The same bad spaces through ``tiltfe campaign run``: exit 2, no traceback, the field
@@ -591,7 +536,7 @@ def test_bad_space_on_the_command_line_exit_2(tmp_path, capsys, case):
     data = copy.deepcopy(GOOD)
     change(data)
     path = tmp_path / "bad_space.toml"
-    path.write_text(_space_toml(data))
+    path.write_text(toml_text(data))
     store = tmp_path / "never.sqlite"
     assert cli.main(["campaign", "run", str(path), "--store", str(store)]) == 2
     err = capsys.readouterr().err

@@ -19,6 +19,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import toml_text
 
 from femcore.foundation.design import Design, demo_design, load_design
 from femcore.foundation.run import run_design
@@ -28,38 +29,6 @@ from femcore.workflows.results import result_file_model
 ROOT = Path(__file__).resolve().parents[1]
 SMALL = ROOT / "examples" / "small_group_springs.toml"
 DEMO = ROOT / "examples" / "fennwick_fw07.toml"
-
-
-def _toml(data: dict) -> str:
-    """Minimal TOML writer for nested dicts / arrays of tables (test inputs only)."""
-    out: list[str] = []
-
-    def value(v):
-        if isinstance(v, bool):
-            return "true" if v else "false"
-        if isinstance(v, str):
-            return json.dumps(v)
-        if isinstance(v, list):
-            return "[" + ", ".join(value(x) for x in v) + "]"
-        return repr(v)
-
-    def table(prefix, d):
-        scalars = {k: v for k, v in d.items() if not isinstance(v, dict)
-                   and not (isinstance(v, list) and v and isinstance(v[0], dict))}
-        for k, v in scalars.items():
-            out.append(f"{k} = {value(v)}")
-        for k, v in d.items():
-            name = f"{prefix}.{k}" if prefix else k
-            if isinstance(v, dict):
-                out.append(f"[{name}]")
-                table(name, v)
-            elif isinstance(v, list) and v and isinstance(v[0], dict):
-                for item in v:
-                    out.append(f"[[{name}]]")
-                    table(name, item)
-
-    table("", data)
-    return "\n".join(out) + "\n"
 
 
 def test_run_end_to_end_matches_python_api(tmp_path, capsys):
@@ -169,7 +138,7 @@ BAD_INPUTS = [
 @pytest.mark.parametrize("change,field", BAD_INPUTS, ids=[c[0][0] for c in BAD_INPUTS])
 def test_bad_input_exit_2_names_the_field(tmp_path, capsys, change, field):
     path = tmp_path / "bad.toml"
-    path.write_text(_toml(_bad(change)))
+    path.write_text(toml_text(_bad(change)))
     code = cli.main(["check", str(path)])
     err = capsys.readouterr().err
     assert code == 2
@@ -183,7 +152,7 @@ def test_bad_input_exit_2_names_the_field(tmp_path, capsys, change, field):
 def test_nan_and_inf_are_refused(tmp_path, capsys, path, value):
     """TOML's nan / inf in any number: exit 2 naming the field (a finite number needed)."""
     bad = tmp_path / "nan.toml"
-    bad.write_text(_toml(_bad((path, value))))
+    bad.write_text(toml_text(_bad((path, value))))
     assert f"= {value!r}" in bad.read_text()  # written as TOML's own nan / inf
     assert cli.main(["check", str(bad)]) == 2
     err = capsys.readouterr().err
@@ -193,7 +162,7 @@ def test_nan_and_inf_are_refused(tmp_path, capsys, path, value):
 
 def test_nan_message_states_unit_and_bounds(tmp_path, capsys):
     bad = tmp_path / "nan.toml"
-    bad.write_text(_toml(_bad(("cap.diameter", float("nan")))))
+    bad.write_text(toml_text(_bad(("cap.diameter", float("nan")))))
     assert cli.main(["check", str(bad)]) == 2
     assert "cap.diameter: expected a finite number in m (> 2, <= 60), got nan" in \
         capsys.readouterr().err
@@ -262,7 +231,7 @@ def test_random_perturbations_never_traceback(tmp_path, path, value):
     data.setdefault("analysis", {})["support"] = "springs"  # keep each example fast
     f = tmp_path / "p.toml"
     try:
-        f.write_text(_toml(data))
+        f.write_text(toml_text(data))
     except (TypeError, ValueError):
         return
     code = cli.main(["check", str(f)])
@@ -278,7 +247,7 @@ def test_harmonic_run_end_to_end(tmp_path, capsys):
     data = _bad(("analysis.geometry", "harmonic"))
     data["analysis"].update(element="T6", mesh="coarse")
     path = tmp_path / "harm.toml"
-    path.write_text(_toml(data))
+    path.write_text(toml_text(data))
     out = tmp_path / "out"
     assert cli.main(["run", str(path), "--out", str(out)]) == 0
     printed = capsys.readouterr().out
@@ -297,7 +266,7 @@ def test_harmonic_with_a_two_pile_ring_is_refused(tmp_path, capsys):
     data["piles"]["rings"][1]["count"] = 2
     data["piles"]["rings"][1]["radius"] = 3.0
     path = tmp_path / "bad.toml"
-    path.write_text(_toml(data))
+    path.write_text(toml_text(data))
     assert cli.main(["run", str(path)]) == 2
     err = capsys.readouterr().err
     assert "piles.rings.1.count = 2" in err and "at least 3" in err and "Traceback" not in err
@@ -471,7 +440,7 @@ def test_run_stopped_in_the_weight_stage_claims_no_pass(tmp_path, capsys):
     d["piles"]["length"] = 12.0
     d["soil"]["layers"][2].update(su=8.0, E=1500.0)
     path = tmp_path / "short.toml"
-    path.write_text(_toml(d))
+    path.write_text(toml_text(d))
     out = tmp_path / "short-results"
     assert cli.main(["run", str(path), "--out", str(out)]) == 0
     text = capsys.readouterr().out

@@ -28,6 +28,18 @@ def _block(cohesion, phi=25.0, psi=5.0, harmonics=(0, 1, 2), planes=9, cutoff=0.
     return blk, dm
 
 
+def _rocking(blk, dm, rng, side=0.0):
+    """A K0-like compressive state and amplitudes mainly in n = 1 (rocking), with ``side``
+    times as much in n = 0 and n = 2."""
+    s0 = np.zeros((*blk.E.shape, 6))
+    s0[..., :3] = [-40.0, -60.0, -40.0]
+    u = np.zeros((3, dm.n_dofs))
+    u[1] = 2e-3 * rng.normal(size=dm.n_dofs)
+    u[0] = side * 2e-3 * rng.normal(size=dm.n_dofs)
+    u[2] = side * 2e-3 * rng.normal(size=dm.n_dofs)
+    return blk.initial_state(s0), u
+
+
 def _assemble_vec(blk, f_e, n_dofs):
     out = np.zeros((f_e.shape[0], n_dofs))
     for a in range(f_e.shape[0]):
@@ -65,13 +77,7 @@ def test_coupled_tangent_matches_finite_differences():
     pairs, unsymmetric for psi < phi) are the derivative of the internal forces."""
     blk, dm = _block(8.0)
     rng = np.random.default_rng(1)
-    s0 = np.zeros((*blk.E.shape, 6))
-    s0[..., :3] = [-40.0, -60.0, -40.0]
-    state = blk.initial_state(s0)
-    u = np.zeros((3, dm.n_dofs))
-    u[1] = 2e-3 * rng.normal(size=dm.n_dofs)  # mainly n = 1 (rocking), a little n = 0, 2
-    u[0] = 2e-4 * rng.normal(size=dm.n_dofs)
-    u[2] = 2e-4 * rng.normal(size=dm.n_dofs)
+    state, u = _rocking(blk, dm, rng, side=0.1)
     f, Kb, st = blk.response(u, state)
     frac = st.yielded.mean()
     assert 0.05 < frac < 0.95, frac  # yield local in theta
@@ -96,11 +102,7 @@ def test_coupled_assembly_is_the_derivative_of_the_assembled_forces():
 
     blk, dm = _block(8.0)
     rng = np.random.default_rng(2)
-    s0 = np.zeros((*blk.E.shape, 6))
-    s0[..., :3] = [-40.0, -60.0, -40.0]
-    state = blk.initial_state(s0)
-    u = np.zeros((3, dm.n_dofs))
-    u[1] = 2e-3 * rng.normal(size=dm.n_dofs)
+    state, u = _rocking(blk, dm, rng)
     f, Kb, _ = blk.response(u, state)
     A = assemble_coupled(Kb, blk.element_dofs, dm.n_dofs)
     F = assemble_forces(f, blk.element_dofs, dm.n_dofs)

@@ -266,13 +266,7 @@ def _moment(rec, built) -> float:
 def _cmd_campaign_run(args: argparse.Namespace) -> int:
     from femcore.workflows.campaign import SpaceError, run_campaign
 
-    if args.workers is not None and args.workers < 1:
-        raise InputProblem(f"--workers {args.workers}: must be 1 or more (local worker "
-                           "processes)")
-    if args.limit is not None and args.limit < 0:
-        raise InputProblem(f"--limit {args.limit}: must be 0 or more (the number of samples "
-                           "to run now; leave it out to run every remaining sample)")
-    try:
+    try:  # run_campaign checks --workers and --limit before it reads anything
         summary = run_campaign(args.space, args.store, workers=args.workers,
                                scheduler=args.scheduler, quiet=args.quiet, limit=args.limit)
     except SpaceError as exc:

@@ -138,7 +138,6 @@ def run_sample(design_data: dict, time_limit: float, retries: int,
     and a check after every converged pushover increment everywhere (a Dask worker thread).
     """
     t0 = time.perf_counter()
-    attempts = 0
     alarm = hasattr(signal, "setitimer") and \
         threading.current_thread() is threading.main_thread()
     old_handler = None
@@ -147,10 +146,9 @@ def run_sample(design_data: dict, time_limit: float, retries: int,
         signal.setitimer(signal.ITIMER_REAL, time_limit)
     try:
         return _run_sample(design_data, time_limit, retries, dynamic, design_strength, t0)
-    except _Timeout:
+    except _Timeout:  # outside a pushover attempt (those record their attempt number)
         return RunRecord("timeout", f"over the time limit of {time_limit:g} s (the whole "
-                         "run: build, stages and pushovers)", max(attempts, 1),
-                         time.perf_counter() - t0)
+                         "run: build, stages and pushovers)", 1, time.perf_counter() - t0)
     finally:
         if alarm:
             signal.setitimer(signal.ITIMER_REAL, 0.0)
