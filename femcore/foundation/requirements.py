@@ -36,7 +36,8 @@ def _ratio_check(name: str, value: float | None, required: float, unit: str, det
                             float(value / required - 1.0), detail, extra)
 
 
-def _capacity_check(req, ult: KeyPoint | None, factored: KeyPoint | None) -> RequirementCheck:
+def _capacity_check(req, ult: KeyPoint | None, factored: KeyPoint | None,
+                    stopped: str | None = None) -> RequirementCheck:
     """Ultimate / resistance factor against the design moment. A censored ultimate (no
     plateau before the rotation cap) is a lower bound: the check reads "not reached" with
     that bound, never pass or fail."""
@@ -48,7 +49,7 @@ def _capacity_check(req, ult: KeyPoint | None, factored: KeyPoint | None) -> Req
     detail = f"{which} / resistance factor {req.resistance_factor:g} against the design moment"
     if use is None or use.value is None:
         return _ratio_check("capacity", None, req.design_moment, "kNm", detail,
-                            "no pushover curve", censored=None, **extra)
+                            stopped or "no pushover curve", censored=None, **extra)
     value = use.value / req.resistance_factor
     if use.extra.get("censored"):
         return RequirementCheck(
@@ -64,7 +65,8 @@ def check_requirements(design: Design, rotation: NDArray[np.float64],
                        moment: NDArray[np.float64], keypoints: dict[str, KeyPoint],
                        min_compression: Sequence[float],
                        dynamic: DynamicStiffness | None,
-                       factored_ultimate: KeyPoint | None = None) -> dict[str, RequirementCheck]:
+                       factored_ultimate: KeyPoint | None = None,
+                       stopped: str | None = None) -> dict[str, RequirementCheck]:
     """All requirement checks of ``design`` for a pushover curve.
 
     Parameters
@@ -75,6 +77,8 @@ def check_requirements(design: Design, rotation: NDArray[np.float64],
     dynamic : the dynamic stiffness, or None when it was not computed
     factored_ultimate : the ultimate of the design-strength pushover; when given, the
         capacity check uses it instead of the characteristic ``ultimate``
+    stopped : why the run has no curve (e.g. "the run stopped in the self-weight stage"):
+        the reason every undecided check gives
     """
     req = design.requirements
     out: dict[str, RequirementCheck] = {}
@@ -85,19 +89,20 @@ def check_requirements(design: Design, rotation: NDArray[np.float64],
         out["static_stiffness"] = _ratio_check(
             "static_stiffness", k, req.static_stiffness_min, "kNm/rad",
             f"secant M/theta at M = {req.static_stiffness_moment:g} kNm, operational E of each "
-            "layer (pushover)", "the pushover did not reach that moment",
+            "layer (pushover)", stopped or "the pushover did not reach that moment",
             at_moment=req.static_stiffness_moment)
     if req.dynamic_stiffness_min is not None:
         value = None if dynamic is None else dynamic.value
-        why = "the dynamic analysis was switched off" if dynamic is None else \
-            (dynamic.reason or "")
+        why = stopped or ("the dynamic analysis was switched off" if dynamic is None else
+                          (dynamic.reason or ""))
         out["dynamic_stiffness"] = _ratio_check(
             "dynamic_stiffness", value, req.dynamic_stiffness_min, "kNm/rad",
             "small-strain G0 moduli, elastic, M / theta under a moment ("
             + (dynamic.method if dynamic is not None else "not computed") + ")", why,
             at_moment=req.dynamic_stiffness_moment)
     if req.design_moment is not None:
-        out["capacity"] = _capacity_check(req, keypoints.get("ultimate"), factored_ultimate)
+        out["capacity"] = _capacity_check(req, keypoints.get("ultimate"), factored_ultimate,
+                                          stopped)
     if req.no_tension_moment is not None:
         m = np.asarray(moment, dtype=np.float64)
         comp = np.asarray(min_compression, dtype=np.float64)
@@ -108,7 +113,8 @@ def check_requirements(design: Design, rotation: NDArray[np.float64],
         if worst is None or not reached:
             out["no_pile_tension"] = RequirementCheck(
                 "no_pile_tension", worst, 0.0, "kN", None, None,
-                detail + "; not decided: the pushover did not reach that moment",
+                detail + "; not decided: " + (stopped or "the pushover did not reach that "
+                                              "moment"),
                 {"up_to_moment": req.no_tension_moment})
         else:
             out["no_pile_tension"] = RequirementCheck(

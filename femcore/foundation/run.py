@@ -12,7 +12,7 @@ from __future__ import annotations
 import platform
 import time
 from collections.abc import Callable
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -303,11 +303,8 @@ def _stopped_checks(design: Design, kp: dict[str, KeyPoint],
                     stage: str) -> dict[str, RequirementCheck]:
     """The requirement checks of a run that stopped in an initial stage: a mechanism there
     fails the capacity check (no moment capacity); every other check is not decided."""
-    checks = check_requirements(design, np.zeros(0), np.zeros(0), kp, [], None)
-    why = f"; not decided: the run stopped in the {stage} stage"
-    return {k: c if c.passed is not None else
-            replace(c, detail=c.detail.split("; not decided")[0] + why)
-            for k, c in checks.items()}
+    return check_requirements(design, np.zeros(0), np.zeros(0), kp, [], None,
+                              stopped=f"the run stopped in the {stage} stage")
 
 
 def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None = None,
