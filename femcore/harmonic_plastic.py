@@ -28,7 +28,7 @@ from numpy.typing import NDArray
 
 from materials.mohr_coulomb import mohr_coulomb_update_3d
 
-from .harmonic import HarmonicGeometry, RingGeometry, elastic_matrix_3d
+from .harmonic import HarmonicGeometry, RingGeometry, elastic_matrix_3d, harmonic_factor
 from .harmonic_planes import CircumferentialPlanes
 
 __all__ = ["PlaneState", "HarmonicMohrCoulomb", "assemble_coupled", "assemble_forces",
@@ -62,7 +62,7 @@ class HarmonicMohrCoulomb:
     phi: float = 0.0
     psi: float = 0.0
     cutoff: NDArray[np.float64] | None = None
-    _geoms: dict[int, HarmonicGeometry] = field(default_factory=dict, init=False, repr=False)
+    _geoms: dict = field(default_factory=dict, init=False, repr=False)
 
     def geometry(self, n: int) -> HarmonicGeometry:
         if n not in self._geoms:
@@ -73,9 +73,11 @@ class HarmonicMohrCoulomb:
     def D(self) -> NDArray[np.float64]:
         return elastic_matrix_3d(self.E, self.nu)  # (c, q, 6, 6)
 
-    def initial_state(self, stress0: NDArray[np.float64]) -> PlaneState:
-        """The state of an initial stress ``(c, q, 6)`` (the n = 0 field, e.g. K0) on every
-        plane, with zero strain."""
+    def initial_state(self, stress0: NDArray[np.float64] | None = None) -> PlaneState:
+        """The state of an initial stress ``(c, q, 6)`` (the n = 0 field, e.g. K0; default
+        none) on every plane, with zero strain."""
+        if stress0 is None:
+            stress0 = np.zeros((*self.E.shape, 6))
         m = self.planes.n_planes
         s = np.broadcast_to(np.asarray(stress0, dtype=np.float64),
                             (m, *self.E.shape, 6)).copy()
@@ -83,16 +85,33 @@ class HarmonicMohrCoulomb:
 
     def strain_amplitudes(self, u: NDArray[np.float64]) -> NDArray[np.float64]:
         """``(h, c, q, 6)`` from the amplitude vectors ``u (h, n_dofs)`` of the harmonics."""
-        return np.stack([self.geometry(n).strain(u[a][self.element_dofs])
+        return self._strains(u[:, self.element_dofs])
+
+    def _strains(self, u_e: NDArray[np.float64]) -> NDArray[np.float64]:
+        return np.stack([self.geometry(n).strain(u_e[a])
                          for a, n in enumerate(self.planes.harmonics)])
 
-    def response(self, u: NDArray[np.float64], state: PlaneState):
-        """Internal forces ``(h, c, i)``, tangent blocks ``(h, h, c, i, i)`` and the new
-        :class:`PlaneState` for total amplitudes ``u (h, n_dofs)`` from the converged
-        ``state``."""
+    def elastic_blocks(self) -> NDArray[np.float64]:
+        """``c_n B_n^T D B_n dV`` per harmonic, ``(h, c, i, i)`` (computed once): the tangent
+        of cells without a yielded point on any plane."""
+        if "_elastic" not in self._geoms:
+            D = self.D
+            D0 = D.copy()  # n = 0: the sin family (torsion, V_0) is not on the planes
+            D0[..., 4:, :] = D0[..., :, 4:] = 0.0
+            self._geoms["_elastic"] = np.stack([
+                harmonic_factor(n) * self.geometry(n).stiffness(D0 if n == 0 else D)
+                for n in self.planes.harmonics])
+        return self._geoms["_elastic"]
+
+    def evaluate(self, u_e: NDArray[np.float64], state: PlaneState, tangent: bool = True):
+        """Element forces ``(h, c, i)`` for element amplitudes ``u_e (h, c, i)`` from the
+        converged ``state``, the tangent as ``(diagonal (h, c, i, i), plastic cells (p,),
+        their full blocks (h, h, p, i, i))`` (None when ``tangent`` is False) and the new
+        :class:`PlaneState`. Cells without a yielded point keep the block-diagonal elastic
+        tangent; only the others are integrated again and couple the harmonics."""
         pl = self.planes
-        m, h = pl.n_planes, len(pl.harmonics)
-        eps = pl.to_planes(self.strain_amplitudes(u))  # (m, c, q, 6)
+        m = pl.n_planes
+        eps = pl.to_planes(self._strains(u_e))  # (m, c, q, 6)
         D = self.D  # (c, q, 6, 6)
         trial = state.stress + np.einsum("cqij,kcqj->kcqi", D, eps - state.strain)
         shape = trial.shape
@@ -103,24 +122,51 @@ class HarmonicMohrCoulomb:
         c = np.broadcast_to(self.cohesion, shape[:-1]).reshape(-1)
         t = None if self.cutoff is None else \
             np.broadcast_to(self.cutoff, shape[:-1]).reshape(-1)
-        sp, ss = np.sin(np.radians(self.phi)), np.sin(np.radians(self.psi))
+        sp_, ss = np.sin(np.radians(self.phi)), np.sin(np.radians(self.psi))
         stress, yielded, _ = mohr_coulomb_update_3d(
-            trial.reshape(n_pts, 6), G, K, c, sp, ss, np.cos(np.radians(self.phi)), t, Dk)
+            trial.reshape(n_pts, 6), G, K, c, sp_, ss, np.cos(np.radians(self.phi)), t, Dk)
         stress = stress.reshape(shape)
-        C = Dk.reshape(*shape, 6)  # (m, c, q, 6, 6)
+        yielded = yielded.reshape(shape[:-1])  # (m, c, q)
         s_amp = pl.to_harmonics(stress)  # (h, c, q, 6)
         f = np.stack([self.geometry(n).internal_force(s_amp[a])
                       for a, n in enumerate(pl.harmonics)])  # (h, c, i)
-        Dnm = pl.coupled_tangent(C)  # (h, h, c, q, 6, 6)
-        Kb = np.empty((h, h, *self.element_dofs.shape, self.element_dofs.shape[1]))
+        new = PlaneState(stress, eps, yielded)
+        if not tangent:
+            return f, None, new
+        plastic = np.flatnonzero(yielded.any(axis=(0, 2)))  # (p,)
+        diag = self.elastic_blocks().copy()  # (h, c, i, i)
+        Kp = self._coupled_blocks(Dk.reshape(*shape, 6)[:, plastic], plastic)
+        h = len(pl.harmonics)
+        diag[:, plastic] = Kp[np.arange(h), np.arange(h)]
+        return f, (diag, plastic, Kp), new
+
+    def _coupled_blocks(self, C: NDArray[np.float64], cells: NDArray[np.int64]):
+        """``B_n^T D_nm B_m dV`` of ``cells`` from plane tangents ``C (m, p, q, 6, 6)``,
+        ``(h, h, p, i, i)``."""
+        pl = self.planes
+        h = len(pl.harmonics)
+        Dnm = pl.coupled_tangent(C)  # (h, h, p, q, 6, 6)
+        n_i = self.element_dofs.shape[1]
+        Kb = np.empty((h, h, cells.size, n_i, n_i))
         for a, n in enumerate(pl.harmonics):  # h^2 blocks (harmonic pairs, not elements)
-            ga = self.geometry(n)
+            BtdV = self.geometry(n).BtdV[cells]
             for b, k in enumerate(pl.harmonics):
-                Bb = self.geometry(k).B  # (c, q, 6, i)
-                DB = np.matmul(Dnm[a, b], Bb)  # (c, q, 6, i)
-                n_c, n_q, n_k, n_i = Bb.shape
-                Kb[a, b] = np.matmul(ga.BtdV, DB.reshape(n_c, n_q * n_k, n_i))
-        return f, Kb, PlaneState(stress, eps, yielded.reshape(shape[:-1]))
+                Bb = self.geometry(k).B[cells]  # (p, q, 6, i)
+                DB = np.matmul(Dnm[a, b], Bb)  # (p, q, 6, i)
+                n_c, n_q, n_k, _ = Bb.shape
+                Kb[a, b] = np.matmul(BtdV, DB.reshape(n_c, n_q * n_k, n_i))
+        return Kb
+
+    def response(self, u: NDArray[np.float64], state: PlaneState):
+        """Internal forces ``(h, c, i)``, tangent blocks ``(h, h, c, i, i)`` of every cell and
+        the new :class:`PlaneState` for total amplitudes ``u (h, n_dofs)`` from the
+        converged ``state``."""
+        f, (diag, plastic, Kp), new = self.evaluate(u[:, self.element_dofs], state)
+        h = diag.shape[0]
+        Kb = np.zeros((h, h, *diag.shape[1:]))
+        Kb[np.arange(h), np.arange(h)] = diag
+        Kb[:, :, plastic] = Kp
+        return f, Kb, new
 
 
 def assemble_coupled(Kb: NDArray[np.float64], element_dofs: NDArray[np.int64],

@@ -63,7 +63,8 @@ def newton(
     ----------
     residual : callable
         ``x -> (r, K, scale, payload)``: residual vector, its tangent dr/dx (sparse, or a
-        function returning it: built only if an iteration needs it), the force
+        function returning it: built only if an iteration needs it; or an object with
+        ``.solve(r)`` that solves with it, e.g. an iterative solver), the force
         scale for the relative criterion and anything the caller wants back (e.g. trial states).
     x0 : initial guess (not modified).
     rtol : relative tolerance on ``||r|| / scale``.
@@ -104,7 +105,9 @@ def newton(
             if stale is not None:
                 lu, used_stale = stale, True
             else:
-                lu, used_stale = factorize(K() if callable(K) else K, backend), False
+                A = K() if callable(K) else K  # a matrix, or a solver with .solve(r)
+                lu = A if hasattr(A, "solve") else factorize(A, backend)
+                used_stale = False
                 if reuse is not None:
                     reuse["lu"] = lu
             t0 = time.perf_counter()

@@ -29,6 +29,7 @@ from numpy.typing import NDArray
 from materials.base import State
 
 from .dofs import ConstraintMap
+from .linsolve import SolverError
 from .model import Model
 from .newton import ConvergenceError, newton
 
@@ -148,6 +149,9 @@ class Stepper:
         extra equation, and the load ``lam_f * f_ref`` has an unknown factor ``lam_f``,
         solved with the displacements from one bordered system. The recorded force is
         ``lam_f``.
+    residual_factory : optional ``(cmap, f_ext, states) -> callback`` replacing
+        :func:`residual_callback` (a model with its own residual and tangent solver, e.g.
+        the coupled harmonics of :mod:`femcore.harmonic_coupled`)
     """
 
     model: Model
@@ -164,6 +168,12 @@ class Stepper:
     max_relative: float | None = None
     relative_from: float = 0.0
     proportional: NDArray[np.float64] | None = None
+    residual_factory: Callable | None = None
+
+    def _base_callback(self, cmap, f_ext, states):
+        if self.residual_factory is not None:
+            return self.residual_factory(cmap, f_ext, states)
+        return residual_callback(self.model, cmap, f_ext, states)
 
     def _next_target(self, lam: float, step: float, grid) -> float:
         """The load factor the next increment aims at (see ``grid``, ``max_relative``)."""
@@ -229,11 +239,11 @@ class Stepper:
             guess = x if velocity is None else x + dlam * velocity
             if prop:  # the control equation holds from the first iterate on
                 guess[ctrl_free] = base_ctrl + target * float(inc[0]) - _tied_part(cmap, d)
-                callback_fn = _bordered_callback(model, cmap, f_ext, states, self.proportional,
-                                                 f_ref_red, ctrl_free,
+                callback_fn = _bordered_callback(self._base_callback(cmap, f_ext, states), cmap,
+                                                 self.proportional, f_ref_red, ctrl_free,
                                                  base_ctrl + target * float(inc[0]), scale)
             else:
-                callback_fn = residual_callback(model, cmap, f_ext, states)
+                callback_fn = self._base_callback(cmap, f_ext, states)
             try:
                 res = newton(callback_fn, guess, rtol=cfg.rtol, max_iter=cfg.max_iterations,
                              backend=cfg.backend, reuse=reuse, line_search=failed_here > 0)
@@ -291,14 +301,15 @@ class Stepper:
                           time.perf_counter() - t_start, cutbacks, failure)
 
 
-def _bordered_callback(model: Model, cmap: ConstraintMap, f_ext, states, f_ref, f_ref_red,
-                       ctrl_free: int, ctrl_value: float, scale: dict):
+def _bordered_callback(base, cmap: ConstraintMap, f_ref, f_ref_red, ctrl_free: int,
+                       ctrl_value: float, scale: dict):
     """Newton callback of proportional loading: ``x = [u_free, mu]`` with the load factor
     ``lam_f = s mu``, residual ``[T^T (f_int - f_ext - s mu f_ref), s (u_ctrl - value)]`` and
     the bordered tangent ``[[K, -s f_ref], [s e_ctrl^T, 0]]``. ``s`` (the mean stiffness
     diagonal of the first tangent, kept in ``scale`` for the whole run) keeps the border in
-    scale with K, so that the pivots of the border are not mistaken for a singularity."""
-    base = residual_callback(model, cmap, f_ext, states)
+    scale with K, so that the pivots of the border are not mistaken for a singularity.
+    ``base`` is the callback of the unbordered system; when its tangent is a solver (an
+    object with ``.solve``), the bordered system is solved by block elimination with it."""
     norm_ref = float(np.linalg.norm(f_ref_red))
     nz = np.flatnonzero(f_ref_red)
 
@@ -308,6 +319,10 @@ def _bordered_callback(model: Model, cmap: ConstraintMap, f_ext, states, f_ref, 
 
         def tangent():
             K = K_of()
+            if hasattr(K, "solve"):
+                if "s" not in scale:
+                    scale["s"] = 1.0
+                return _BorderedSolve(K, f_ref_red, ctrl_free, scale["s"])
             if "s" not in scale:
                 scale["s"] = float(np.abs(K.diagonal()).mean()) or 1.0
             s = scale["s"]
@@ -326,6 +341,26 @@ def _bordered_callback(model: Model, cmap: ConstraintMap, f_ext, states, f_ref, 
                 (u, trial, generalized))
 
     return residual
+
+
+class _BorderedSolve:
+    """``[[K, -s f], [s e_c^T, 0]] [du; dmu] = [r; g]`` by two solves with K:
+    ``du = a + s dmu b`` with ``K a = r``, ``K b = f``, and ``dmu`` from the control row."""
+
+    def __init__(self, K, f, ctrl: int, s: float) -> None:
+        self.K, self.f, self.ctrl, self.s = K, f, ctrl, s
+        self._b = None
+
+    def solve(self, rhs: NDArray[np.float64]) -> NDArray[np.float64]:
+        r, g = rhs[:-1], rhs[-1]
+        a = self.K.solve(r)
+        if self._b is None:
+            self._b = self.K.solve(self.f)
+        b, c, s = self._b, self.ctrl, self.s
+        if abs(b[c]) < 1e-300:
+            raise SolverError("the control DOF does not move under the proportional load")
+        dmu = (g / s - a[c]) / (s * b[c])
+        return np.append(a + s * dmu * b, dmu)
 
 
 def _tied_part(cmap: ConstraintMap, dof: int) -> float:

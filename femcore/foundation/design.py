@@ -145,6 +145,10 @@ class AnalysisSettings(_Model):
         1, ge=1, le=8, description="highest circumferential harmonic n of the harmonic "
         "model (1-8); elastic loads (vertical, horizontal, moment) live in n = 0 and 1, so "
         "1 is exact for them")
+    planes: int | None = Field(
+        None, ge=3, le=200, description="circumferential planes over [0, pi] on which the "
+        "harmonic pushover evaluates plasticity (theta = 0 and pi included); at least "
+        "harmonics + 2; default 2 harmonics + 3")
     element: Literal["T6", "T15"] = Field(
         "T15", description="soil triangles: T15 = 15-node quartic (default: accurate undrained "
         "collapse loads in plane strain and axisymmetry, where low-order triangles lock; Sloan "
@@ -416,6 +420,11 @@ class Design(_Model):
             if self.analysis.support != "continuum":
                 problems.append("analysis.support must be 'continuum' for harmonic analyses "
                                 f"(got {self.analysis.support!r})")
+            an = self.analysis
+            if an.planes is not None and an.planes < an.harmonics + 2:
+                problems.append(f"analysis.planes = {an.planes}: too few for analysis.harmonics"
+                                f" = {an.harmonics} (need >= {an.harmonics + 2}, harmonics + 2,"
+                                " at most 200)")
             for i, ring in enumerate(self.piles.rings):
                 if ring.count < 3 and ring.radius > 0:
                     problems.append(f"piles.rings.{i}.count = {ring.count}: a ring of the "

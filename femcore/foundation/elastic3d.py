@@ -51,6 +51,7 @@ from .build import (
     backfill_lines,
     domain_mesh,
     free_cap,
+    freed_soil_edges,
     soil_profile,
 )
 from .design import Design
@@ -149,12 +150,14 @@ class HarmonicFoundation:
 
 
 def build_harmonic(design: Design, near_field: bool = True,
-                   slip: bool = True) -> HarmonicFoundation:
+                   slip: bool = True, n_max: int = 1) -> HarmonicFoundation:
     """The harmonic model of a design with the moduli of its layers (see module docstring).
 
     ``near_field`` False leaves out the discreteness correction, ``slip`` False the slip
     springs (the beams then follow the soil through the near-field springs alone, or rigid
-    ties when both are off); both for measuring what they change.
+    ties when both are off); both for measuring what they change. ``n_max``: the highest
+    harmonic the model may solve. ``meta["springs"]`` keeps, per ring, what the nonlinear
+    springs of the harmonic pushover need (block indices, nodes, tributary lengths).
     """
     problems = check_harmonic_layout(design)
     if problems:
@@ -171,13 +174,16 @@ def build_harmonic(design: Design, near_field: bool = True,
     for k in centre:  # a centre pile is a solid column r <= r0 (equal area) on the axis
         lines[k] = ((r0, head_y), (r0, tip_y))
         extra.append(((0.0, tip_y), (r0, tip_y)))
+    first_backfill = len(lines) + len(extra) + 1
     extra += backfill_lines(design, True) if cap.contact == "none" else []
     mesh = domain_mesh(design, lines + extra, half=True)
     new_index = None
+    top_edges = freed = np.zeros((0, mesh.element.order + 1), dtype=np.int64)
     if cap.contact == "none":  # the cap touches no soil (no backfill, edge and base free)
-        mesh, _, new_index, _ = free_cap(mesh, design)
+        mesh, _, new_index, top_edges = free_cap(mesh, design)
+        freed = freed_soil_edges(mesh, design, first_backfill)
     _, ped_top = _cap_polygon(design, half=True)
-    model = HarmonicModel(mesh, 1)
+    model = HarmonicModel(mesh, n_max)
     column = np.zeros(0, dtype=np.int64)
     if centre:
         c = mesh.points[mesh.cells[:, :3]].mean(axis=1)  # (cells, 2)
@@ -186,6 +192,7 @@ def build_harmonic(design: Design, near_field: bool = True,
         column = np.flatnonzero(not_cap & (c[:, 0] < r0) & (c[:, 1] < head_y)
                                 & (c[:, 1] > tip_y))
     tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])
+    layer_blocks = []  # (block index, layer index)
     for k, ly in enumerate(design.soil.layers, start=1):
         name = regions.layer(k)
         if name in mesh.cell_sets and len(mesh.cell_sets[name]):
@@ -193,10 +200,14 @@ def build_harmonic(design: Design, near_field: bool = True,
             mat = _soil_material(ly, tops[k - 1])
             model.add_block(ly.name, cells, material=LinearElastic(
                 mat.E, mat.nu, E_gradient=mat.E_gradient, depth_ref=mat.depth_ref))
+            layer_blocks.append((len(model.blocks) - 1, k - 1))
     model.add_block("cap", regions.CAP, E=cap.E, nu=cap.nu)
+    cap_block = len(model.blocks) - 1
     column_ties = []
+    column_block = None
     if column.size:
         model.add_block("centre_pile", column, E=piles.E, nu=0.2)
+        column_block = len(model.blocks) - 1
         col_nodes = np.unique(mesh.cells[column])
         at_top = col_nodes[np.abs(mesh.points[col_nodes, 1] - head_y) < 1e-6 * cap.diameter]
         if new_index is not None:
@@ -206,7 +217,7 @@ def build_harmonic(design: Design, near_field: bool = True,
 
     soil_at = _SoilAtDepth(design, soil_profile(design))
     cap_cells = mesh.cell_sets[regions.CAP]
-    rings, heads, nf_info = [], [], []
+    rings, heads, nf_info, spring_info = [], [], [], []
     for k, ring in enumerate(piles.rings, start=1):
         if ring.radius == 0:
             continue
@@ -231,12 +242,20 @@ def build_harmonic(design: Design, near_field: bool = True,
         if not np.all(np.isfinite(k_ax)):  # neither slip nor near field: stiff ties
             k_ax = np.full_like(k_ax, 1e4) * s["G"]
             k_lat = np.full_like(k_lat, 1e4) * s["G"]
-        k = np.stack([k_ax * trib, k_lat * trib, k_lat * trib], axis=1)  # (m, 3)
+        k_nodes = np.stack([k_ax * trib, k_lat * trib, k_lat * trib], axis=1)  # (m, 3)
+        soil = np.stack([3 * nodes, 3 * nodes + 1, 3 * nodes + 2], axis=1)
+        model.add_element_block(RingSpringBlock(f"ring_{k}_springs", line, line.trans, soil,
+                                                k_nodes))
+        info = {"ring": k, "line": line, "nodes": nodes, "trib": trib, "soil": s,
+                "k": k_nodes, "shaft_block": len(model.blocks) - 1, "tip_block": None}
         if slip:  # tip (q-z) spring in parallel with the shaft spring at the last node
             st = {key: v[-1:] for key, v in s.items()}
-            k[-1, 0] += float(tip_stiffness(st["G"], st["nu"], r0)[0]) * piles.slip_stiffening
-        soil = np.stack([3 * nodes, 3 * nodes + 1, 3 * nodes + 2], axis=1)
-        model.add_element_block(RingSpringBlock(f"ring_{k}_springs", line, line.trans, soil, k))
+            k_tip = float(tip_stiffness(st["G"], st["nu"], r0)[0]) * piles.slip_stiffening
+            model.add_element_block(RingSpringBlock(
+                f"ring_{k}_tip", line, line.trans[-1:], soil[-1:],
+                np.array([[k_tip, 0.0, 0.0]])))
+            info.update(tip_block=len(model.blocks) - 1, k_tip=k_tip)
+        spring_info.append(info)
         cap_node = int(nodes[0]) if new_index is None or new_index[nodes[0]] < 0 \
             else int(new_index[nodes[0]])
         cells = cap_cells[np.any(mesh.cells[cap_cells] == cap_node, axis=1)]
@@ -251,7 +270,10 @@ def build_harmonic(design: Design, near_field: bool = True,
     top = cap_nodes[(np.abs(pts[cap_nodes, 1] - ped_top) < tol)
                     & (pts[cap_nodes, 0] <= cap.pedestal_diameter / 2 + tol)]
     meta = {"nodes": mesh.n_nodes, "dofs": model.n_dofs, "near_field": nf_info,
-            "build_s": time.perf_counter() - t0}
+            "build_s": time.perf_counter() - t0, "springs": spring_info,
+            "backfill_edges": top_edges, "freed_edges": freed, "column": column,
+            "pedestal_top": ped_top, "layer_blocks": layer_blocks,
+            "column_block": column_block, "cap_block": cap_block}
     return HarmonicFoundation(design, model, rings, heads, top, mesh.nodes_of("base"),
                               mesh.nodes_of("right"), piles.head == "fixed", "ref", meta,
                               column_ties)
