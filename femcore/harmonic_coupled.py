@@ -39,8 +39,6 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 from numpy.typing import NDArray
 
-from materials.springs import SpringState
-
 from .dofs import ConstraintMap
 from .harmonic import HarmonicModel
 from .harmonic_planes import CircumferentialPlanes

@@ -94,6 +94,11 @@ class Result:
     design_strength: dict | None = None  # the factored pushover (see run_built)
     built: BuiltModel | None = field(default=None, repr=False)
     pushover: StepResult | None = field(default=None, repr=False)
+    design: Design | None = field(default=None, repr=False)
+
+    def __post_init__(self) -> None:
+        if self.design is None and self.built is not None:
+            self.design = self.built.design
 
     def to_dict(self) -> dict:
         return _clean({
@@ -441,37 +446,135 @@ def run_design(design: Design | dict, progress: Callable[[StepRecord], None] | N
 
     Plane strain with the continuum: the harmonic 3D elastic solve first (initial
     stiffness; the target of a calibrated slice length), then the slice pushover
-    (:func:`prepare`, :func:`run_built`). Harmonic geometry: the elastic 3D analysis alone
-    (:func:`run_harmonic`)."""
+    (:func:`prepare`, :func:`run_built`). Harmonic geometry: the elastic 3D solves and the
+    nonlinear pushover of the coupled harmonics (:func:`run_harmonic`)."""
     if isinstance(design, dict):
         design = design_from_dict(design)
     if design.analysis.geometry == "harmonic":
-        return run_harmonic(design, dynamic)
+        return run_harmonic(design, dynamic, progress)
     built, elastic = prepare(design)
     return run_built(built, progress, dynamic=dynamic, elastic=elastic)
 
 
-def run_harmonic(design: Design, dynamic: bool = True) -> Result:
-    """The elastic harmonic analysis of a design: the 3D stiffnesses at the tower base
-    (initial rotational, vertical, horizontal; the dynamic one with G0), no pushover, so the
-    capacity and the secant-stiffness checks are not decided."""
+def _harmonic_curve(hb, log: StageLog, res: StepResult) -> dict:
+    lo = hb.design.loading
+    U, W, TH = hb.ref_dof(1, 0), hb.ref_dof(0, 1), hb.ref_dof(1, 2)
+    u0 = log.start.u
+    mon = np.array([r.monitor for r in res.records]).reshape(-1, 3)
+    rot = mon[:, 2] - float(u0[TH])
+    force = res.force[:, 0] if res.records else np.zeros(0)
+    m = force if lo.control == "rotation" else force * hb.lever_height
+    hz = np.full_like(rot, lo.horizontal) if lo.control == "rotation" else force
+    return {"rotation": rot, "moment": m, "moment_per_m": m,
+            "vertical": np.full_like(rot, lo.vertical), "horizontal": hz,
+            "settlement": -(mon[:, 1] - u0[W]), "horizontal_displacement": mon[:, 0] - u0[U],
+            "iterations": res.iterations}
+
+
+def _harmonic_pushover(design: Design, progress=None, settings: StepSettings | None = None,
+                       pile_resistance: float = 1.0):
+    """Build the coupled harmonic model of a design and run its stages."""
+    from .harmonic_pushover import build_coupled, harmonic_stages
+
+    hb = build_coupled(design, pile_resistance=pile_resistance)
+    return hb, run_stages(hb, harmonic_stages(hb, settings), progress)
+
+
+def _stage_rows(log: StageLog) -> list[dict]:
+    return [{"name": o.name, "seconds": o.seconds,
+             "increments": 0 if o.result is None else len(o.result.records),
+             "iterations": 0 if o.result is None else int(o.result.iterations.sum()),
+             "status": "ok" if o.ok else "diverged"} for o in log.outcomes]
+
+
+def run_harmonic(design: Design, dynamic: bool = True,
+                 progress: Callable[[StepRecord], None] | None = None,
+                 settings: StepSettings | None = None, factored: bool = True) -> Result:
+    """The harmonic analysis of a design: the 3D elastic stiffnesses at the tower base
+    (n = 0 and 1) and the nonlinear pushover of every harmonic up to
+    ``analysis.harmonics`` (:mod:`.harmonic_pushover`), with the key points, requirement
+    checks, ring envelopes and the design-strength pushover of the slice path."""
+    from ..harmonic_coupled import SOLVER_STATS
+    from .harmonic_pushover import ring_envelopes
+
     t0 = time.perf_counter()
+    for k in SOLVER_STATS:
+        SOLVER_STATS[k] = 0 if isinstance(SOLVER_STATS[k], int) else 0.0
     el = harmonic_stiffness(design)
-    kp: dict[str, KeyPoint] = {}
+    hb, log = _harmonic_pushover(design, progress, settings)
+    t2 = time.perf_counter()
+    split = dict(SOLVER_STATS)
+    stage_rows = _stage_rows(log)
+    failed, final = log.failed, log.last
+    an = design.analysis
+    info = {"dofs": hb.model.n_dofs, "dofs_per_harmonic": hb.model.n1,
+            "nodes": hb.meta["nodes"], "cells": hb.meta["cells"], "geometry": "harmonic",
+            "harmonics": an.harmonics, "planes": hb.meta["planes"],
+            "solver": hb.solver, "element": an.element, "mesh": an.mesh,
+            "support": an.support, "near_field": el.near_field,
+            "slip_stiffening": design.piles.slip_stiffening, "versions": versions()}
+    base_t = {"harmonic_s": el.seconds["total_s"], "build_s": hb.meta["build_s"]}
+    if failed is not None and failed is not final:
+        status, message = _initial_stage_failure(hb, failed)
+        kp0 = {} if status != "ok" else {"ultimate": KeyPoint(
+            "ultimate", 0.0, "kNm", f"mechanism under the {failed.name} stage's load", {},
+            {"rotation": 0.0, "censored": False, "mechanism": True})}
+        return Result(status, message, {}, kp0, _stopped_checks(design, kp0, failed.name), [],
+                      info, {**base_t, "total_s": time.perf_counter() - t0}, design.name,
+                      None, stage_rows, elastic=el, pushover=failed.result, design=design)
+    res = final.result
+    curve = _harmonic_curve(hb, log, res)
+    kp = analyse_curve(curve["rotation"], curve["moment"], design.keypoints.rotations,
+                       design.keypoints.moments, require_confirmed=True) \
+        if curve["rotation"].size >= 2 else {}
+    own = kp.get("initial_stiffness")
     _initial_from_harmonic(kp, el)
+    kp["initial_stiffness"].extra = {"curve": None if own is None else own.value,
+                                     "curve_method": None if own is None else own.method}
     kp["vertical_stiffness"] = KeyPoint("vertical_stiffness", el.K_V, "kN/m",
                                         "harmonic 3D elastic solve (n = 0)", {})
     kp["horizontal_stiffness"] = KeyPoint("horizontal_stiffness", el.K_H, "kN/m",
                                           "harmonic 3D elastic solve (n = 1), rotation held",
                                           {})
+    status, message = _pushover_outcome(hb, res, curve, kp)
+    strength = None
+    if factored and design.design_strength is not None:
+        ts = time.perf_counter()
+        fd = factored_design(design)
+        _, flog = _harmonic_pushover(fd, progress, settings,
+                                     design.design_strength.pile_resistance)
+        fres = flog.last.result
+        fcurve = _harmonic_curve(hb, flog, fres) if flog.failed in (None, flog.last) else {}
+        fkp = analyse_curve(fcurve["rotation"], fcurve["moment"], (), (),
+                            require_confirmed=True) \
+            if fcurve and fcurve["rotation"].size >= 2 else {}
+        keep = ("ultimate", "yield_equal_energy", "yield_tangents", "ultimate_hyperbolic")
+        strength = {"ultimate": fkp.get("ultimate"), "seconds": time.perf_counter() - ts,
+                    "record": {"factors": design.design_strength.model_dump(),
+                               "status": "ok" if flog.failed is None else "diverged",
+                               "message": flog.last.result.message if flog.last.result
+                               else "", "keypoints": {k: fkp[k].as_dict() for k in keep
+                                                      if k in fkp},
+                               "curve": {k: np.asarray(fcurve[k]).tolist()
+                                         for k in ("rotation", "moment") if k in fcurve}}}
+        strength["record"]["seconds"] = strength["seconds"]
     dyn = dynamic_stiffness(design) if dynamic else None
-    req = check_requirements(design, np.zeros(0), np.zeros(0), kp, [], dyn)
-    info = {"dofs": el.dofs, "geometry": "harmonic", "harmonics": design.analysis.harmonics,
-            "element": design.analysis.element, "mesh": design.analysis.mesh,
-            "support": design.analysis.support, "near_field": el.near_field,
-            "slip_stiffening": design.piles.slip_stiffening, "versions": versions()}
-    total = time.perf_counter() - t0
-    return Result("ok", "elastic harmonic analysis: 3D stiffness only (no pushover, no "
-                  "capacity)", {}, kp, req, [], info, {"harmonic_s": el.seconds["total_s"],
-                                                      "total_s": total},
-                  design.name, dyn, [], elastic=el)
+    req = check_requirements(design, curve["rotation"], curve["moment"], kp,
+                             _least_compression(res), dyn,
+                             None if strength is None else strength.get("ultimate"))
+    t3 = time.perf_counter()
+    timings = {**base_t, "stages_s": sum(o.seconds for o in log.outcomes[:-1]),
+               "pushover_s": final.seconds, "return_map_s": split["material_s"],
+               "solve_s": split["factor_s"] + split["solve_s"],
+               "gmres_iterations": split["gmres_iterations"],
+               "block_factorizations": split["block_factorizations"],
+               "postprocess_s": t3 - t2, "total_s": t3 - t0,
+               "increments": len(res.records), "iterations": int(res.iterations.sum()),
+               "cutbacks": res.cutbacks}
+    if strength is not None:
+        timings["design_strength_s"] = strength["seconds"]
+        timings["postprocess_s"] -= strength["seconds"]
+    out = Result(status, message, curve, kp, req, ring_envelopes(hb, res), info, timings,
+                 design.name, dyn, stage_rows, elastic=el, pushover=res, design=design)
+    out.design_strength = None if strength is None else strength["record"]
+    return out

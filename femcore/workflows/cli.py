@@ -77,11 +77,21 @@ def _slice_note(built) -> str:
 
 
 def _harmonic_rows(design) -> list[str]:
-    return [f"design        {design.name}",
-            f"analysis      harmonic (elastic 3D stiffness), {design.analysis.element}, "
-            f"mesh {design.analysis.mesh}",
+    from femcore.foundation.harmonic_pushover import default_planes
+
+    an, lo = design.analysis, design.loading
+    planes = an.planes if an.planes is not None else default_planes(an.harmonics)
+    rows = [f"design        {design.name}",
+            f"analysis      harmonic 3D: harmonics 0-{an.harmonics} on {planes} planes, "
+            f"{an.element}, mesh {an.mesh}",
+            f"soil          {len(design.soil.layers)} layers, water table "
+            f"{design.soil.water_table:g} m",
+            f"cap           D = {design.cap.diameter:g} m, contact {design.cap.contact}",
             f"piles         {sum(r.count for r in design.piles.rings)} piles in "
             f"{len(design.piles.rings)} rings (smeared ring beams)"]
+    stop = "until the plateau holds, at most" if lo.stop_at_plateau else "to"
+    rows.append(f"pushover      {lo.control} control, {stop} {lo.rotation_max:g} rad")
+    return rows
 
 
 def _summary_rows(design, built) -> list[str]:
@@ -207,22 +217,19 @@ def _cmd_run(args: argparse.Namespace) -> int:
     except OSError as exc:
         raise InputProblem(f"--out {out}: the folder is not writable ({exc.strerror})") \
             from None
-    if design.analysis.geometry == "harmonic":
+    harmonic = design.analysis.geometry == "harmonic"
+    if harmonic:
+        built, elastic = None, None
+        lever = design.loading.lever_arm if design.loading.control == "lever" else None
         if not args.quiet:
             print("\n".join(_harmonic_rows(design)))
-        result = run_harmonic(design)
-        write_report(result, out)
-        t_total = time.perf_counter() - t0
-        write_result_json(result, out / "result.json")
-        if not args.quiet:
-            _print_summary(result, out, t_total)
-        else:
-            print(f"{design.name}: {result.status}; results in {out}/")
-        return EXIT_OK
-    built, elastic = prepare(design)
+    else:
+        built, elastic = prepare(design)
+        lever = None
     vertical = design.loading.control == "settlement"
     if not args.quiet:
-        print("\n".join(_summary_rows(design, built)))
+        if not harmonic:
+            print("\n".join(_summary_rows(design, built)))
         print(f"{'settlement (mm)' if vertical else 'rotation (mrad)':>16s} "
               f"{'V (MN)' if vertical else 'moment (MNm)':>13s} {'iterations':>10s}")
 
@@ -234,10 +241,12 @@ def _cmd_run(args: argparse.Namespace) -> int:
             if first < last[0]:  # the next pushover (design strengths) starts
                 print("design-strength pushover (factored soil strengths)")
             last[0] = first
-            print(f"{first * 1e3:16.4f} {_moment(rec, built) / 1e3:13.2f} "
-                  f"{rec.iterations:10d}", flush=True)
+            m = _moment(rec, built) if built is not None else \
+                float(rec.force[0]) * (lever if lever else 1.0)
+            print(f"{first * 1e3:16.4f} {m / 1e3:13.2f} {rec.iterations:10d}", flush=True)
 
-    result = run_built(built, progress=progress, elastic=elastic)
+    result = run_harmonic(design, progress=progress) if harmonic else \
+        run_built(built, progress=progress, elastic=elastic)
     t_analysis = time.perf_counter() - t0
     if result.curve:
         write_curve_csv(result, out / "curve.csv")

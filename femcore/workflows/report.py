@@ -81,9 +81,13 @@ def _summary_page(plt, result: Result):
                          f"{_fmt(kp0.extra['slice'], 1e6, 4)} GNm/rad")
     m = result.model
     if m.get("geometry") == "harmonic":
-        lines += ["", f"Model: harmonic (elastic 3D, no pushover), {m.get('element')}, "
-                  f"{m.get('dofs')} DOFs",
-                  f"Timings: {result.timings.get('total_s', 0):.1f} s total"]
+        tm = result.timings
+        lines += ["", f"Model: harmonic 3D, harmonics 0-{m.get('harmonics')} on "
+                  f"{m.get('planes')} planes, {m.get('element')}, {m.get('dofs')} DOFs "
+                  f"({m.get('dofs_per_harmonic')} per harmonic)",
+                  f"Timings: {tm.get('total_s', 0):.1f} s total, pushover "
+                  f"{tm.get('pushover_s', 0):.1f} s ({tm.get('increments', 0)} increments, "
+                  f"{tm.get('iterations', 0)} Newton iterations)"]
     else:
         lines += ["", f"Model: {m.get('support')} support, {m.get('element')}, "
                   f"{m.get('dofs')} DOFs, {len(m.get('rows', []))} pile rows",
@@ -171,7 +175,7 @@ def _curve_figure(plt, result: Result):
         if p and p.value is not None and p.extra.get("rotation") is not None:
             ax.plot(p.extra["rotation"] * 1e3, p.value / 1e3, marker, color=_INK, ms=5,
                     label=name.replace("_", " "))
-    req = result.built.design.requirements
+    req = result.design.requirements
     tmax = th[-1] * 1e3
     if req.static_stiffness_min:
         ax.plot([0, tmax], [0, req.static_stiffness_min * tmax / 1e3 / 1e3], "--",
@@ -200,7 +204,9 @@ def _piles_figure(plt, result: Result):
     rows = result.piles
     for k, p in enumerate(rows):
         colour = cmap(k / max(len(rows) - 1, 1))
-        label = f"x = {p.x:.1f} m ({p.count:g} piles)"
+        label = (f"ring r = {p.x:.1f} m ({p.count:g} piles, all positions)"
+                 if result.model.get("geometry") == "harmonic"
+                 else f"x = {p.x:.1f} m ({p.count:g} piles)")
         a1.fill_betweenx(p.depth, p.compression_min, p.compression_max,
                          color=colour, alpha=0.35, lw=0)
         a1.plot(p.compression_max, p.depth, color=colour, lw=0.8, label=label)
@@ -256,12 +262,14 @@ def _write_report(result: Result, out: Path) -> list[Path]:
     _style(plt)
     files: list[Path] = []
     figs = [("summary", _summary_page(plt, result))]
-    if result.built is not None and result.pushover is not None and result.pushover.records:
+    if result.pushover is not None and result.pushover.records:
         if "rotation" in result.curve:
             figs.append(("moment_rotation", _curve_figure(plt, result)))
-        figs.append(("model", _model_figure(plt, result)))
-        figs.append(("deformed", _model_figure(plt, result, deformed=True)))
-        figs.append(("pile_forces", _piles_figure(plt, result)))
+        if result.built is not None:  # the 2D model (the harmonic model has its own fields)
+            figs.append(("model", _model_figure(plt, result)))
+            figs.append(("deformed", _model_figure(plt, result, deformed=True)))
+        if result.piles:
+            figs.append(("pile_forces", _piles_figure(plt, result)))
         if "rotation" in result.curve:
             figs.append(("histories", _histories_figure(plt, result)))
     pdf_path = out / "report.pdf"
