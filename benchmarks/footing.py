@@ -146,3 +146,81 @@ def run_footing(f: Footing) -> FootingResult:
     else:
         load = force  # moment per metre
     return FootingResult(load, disp, float(load[-1]), plateau(disp, load), res, model.n_dofs)
+
+
+@dataclass
+class HarmonicFooting:
+    """A rigid circular footing of diameter ``B`` on the surface of a uniform Tresca soil in
+    the coupled harmonic model (harmonics ``0..harmonics`` on ``planes`` planes).
+
+    ``control``: ``"settlement"`` (n = 0), ``"rotation"`` (n = 1, no horizontal load) or
+    ``"horizontal"`` (n = 1, no moment); ``rough`` False ties only the vertical motion;
+    ``cutoff`` a tension cut-off of the soil (kPa; 0: no tension in the soil below the
+    footing), None for none."""
+
+    su: float = 10.0
+    E: float = 3000.0
+    nu: float = 0.49
+    B: float = 2.0
+    harmonics: int = 0
+    planes: int | None = None
+    control: str = "settlement"
+    rough: bool = True
+    element: str = "T15"
+    h_near: float = 0.1
+    h_far: float = 0.5
+    width_factor: float = 2.5
+    depth_factor: float = 2.0
+    target: float = 0.05  # settlement / B, rotation in rad, or sliding / B
+    cutoff: float | None = None
+    solver: str = "krylov"
+    settings: StepSettings = field(default_factory=lambda: StepSettings(initial_step=0.02,
+                                                                        max_step=0.1))
+
+
+def run_harmonic_footing(f: HarmonicFooting) -> FootingResult:
+    """The footing's load-displacement curve: mean pressure (kPa), horizontal force over the
+    area (kPa) or the moment (kNm), against settlement, sliding (m) or rotation (rad)."""
+    from femcore.harmonic import HarmonicModel
+    from femcore.harmonic_coupled import CoupledModel, combine_maps, coupled_residual
+    from femcore.harmonic_planes import CircumferentialPlanes, min_planes
+    from femcore.harmonic_plastic import HarmonicMohrCoulomb
+
+    B, N = f.B, int(f.harmonics)
+    mesh = layered_domain(f.width_factor * B, f.depth_factor * B, x_min=0.0,
+                          footing=(0.0, B / 2), h=f.h_far * B, h_near=f.h_near * B,
+                          refine_radius=B, element=f.element)
+    base = HarmonicModel(mesh, max(N, 1))
+    soil = base.add_block("soil", "soil", E=f.E, nu=f.nu)
+    base.add_reference_point("footing", 0.0)
+    planes = CircumferentialPlanes(range(N + 1), f.planes or max(2 * N + 3, min_planes(N)))
+    c = np.full_like(soil.E, f.su)
+    cut = None if f.cutoff is None else np.full_like(soil.E, f.cutoff)
+    block = HarmonicMohrCoulomb(soil.ring, soil.element_dofs, planes, soil.E, soil.nu, c,
+                                cutoff=cut)
+    model = CoupledModel(base, planes, {0: block})
+    dm = base.dofmap
+    U, W, TH = (dm.ref_dof("footing", k) for k in range(3))
+    ctrl_n, ctrl = {"settlement": (0, W), "rotation": (1, TH), "horizontal": (1, U)}[f.control]
+    maps = []
+    for n in planes.harmonics:
+        cons = base.constraints(n)
+        cons.fix_nodes(mesh.nodes_of("base"))
+        cons.fix_nodes(np.setdiff1d(mesh.nodes_of("right"), mesh.nodes_of("base")), (0, 2))
+        cons.tie_rigid(mesh.nodes_of("footing"), "footing", "bonded" if f.rough else "smooth")
+        if n == ctrl_n:
+            cons.fix([ctrl], 0.0)
+        maps.append(cons.build())
+    cmap = combine_maps(maps)
+    a = planes.harmonics.index(ctrl_n)
+    dof = a * base.n_dofs + ctrl
+    inc = {"settlement": -f.target * B, "rotation": f.target,
+           "horizontal": f.target * B}[f.control]
+    res = Stepper(model, cmap, np.zeros(model.n_dofs), [dof], [inc], settings=f.settings,
+                  residual_factory=coupled_residual(model, f.solver)).run()
+    force = res.force[:, 0]
+    disp = np.abs(res.displacement[:, 0])
+    area = np.pi * (B / 2) ** 2
+    load = {"settlement": -force / area, "rotation": force,
+            "horizontal": force / area}[f.control]
+    return FootingResult(load, disp, float(load[-1]), plateau(disp, load), res, model.n_dofs)

@@ -1,0 +1,170 @@
+"""The nonlinear harmonic pushover (femcore/harmonic_coupled.py,
+femcore/foundation/harmonic_pushover.py).
+
+References:
+* vertical capacity of a rigid circle on uniform Tresca soil: rough 6.05 s_u A (Eason &
+  Shield 1960, The plastic indentation of a semi-infinite solid by a perfectly rough circular
+  punch, ZAMP 11), smooth 5.69 s_u A (Shield 1955, On the plastic flow of metals under
+  conditions of axial symmetry, Proc. R. Soc. A 233), from memory; a vertical load does not
+  excite n >= 1, so harmonics 0..N must give the n = 0 value;
+* pure moment on a bonded rigid circle on uniform Tresca soil: M / (A D s_u) = 0.67 (finite
+  element and limit analysis, Gourvenec & Randolph 2003, Effect of strength non-homogeneity
+  on the shape of failure envelopes for combined loading of strip and circular foundations
+  on clay, Geotechnique 53(6)), from memory;
+* the consistent tangent of the ring springs on the planes against central finite
+  differences of their forces;
+* the first secant of the demo's harmonic pushover against the elastic harmonic solve
+  (a separate linear code path: femcore.foundation.elastic3d.harmonic_stiffness).
+
+Displacement FE over-predicts collapse loads; the bands are one-sided in the same way as the
+slice's collapse checks (tests/test_collapse.py).
+"""
+
+import copy
+
+import numpy as np
+import pytest
+from conftest import toml_text
+
+from benchmarks.footing import HarmonicFooting, run_harmonic_footing
+from femcore.foundation.design import demo_design
+from femcore.harmonic_coupled import PlaneSprings
+from femcore.harmonic_planes import CircumferentialPlanes
+from femcore.workflows import cli
+
+SU = 10.0
+
+
+def _band(value, ref, lo, hi):
+    err = value / ref - 1
+    assert lo <= err <= hi, f"{value:.4f} vs {ref:.4f}: {100 * err:+.2f} % outside [{lo}, {hi}]"
+    return err
+
+
+@pytest.mark.parametrize("rough,ref", [(True, 6.05), (False, 5.69)])
+def test_vertical_capacity_of_a_circle_in_n0(rough, ref):
+    """Rough 6.05 / smooth 5.69 s_u (Eason & Shield 1960; Shield 1955), T15, h = B / 10 at
+    the edge: 0 ... +4 %."""
+    r = run_harmonic_footing(HarmonicFooting(su=SU, rough=rough))
+    assert r.plateau_change < 0.01
+    _band(r.collapse, ref * SU, 0.0, 0.04)
+
+
+def test_vertical_capacity_unchanged_by_more_harmonics():
+    """A vertical load excites only n = 0: harmonics 0..2 on 7 planes give the n = 0 curve
+    (to 1e-6) and the higher amplitudes stay zero."""
+    r0 = run_harmonic_footing(HarmonicFooting(su=SU))
+    r2 = run_harmonic_footing(HarmonicFooting(su=SU, harmonics=2))
+    assert r2.collapse == pytest.approx(r0.collapse, rel=1e-6)
+    n1 = r2.n_dofs // 3
+    u = r2.pushover.u
+    assert np.abs(u[n1:]).max() < 1e-9 * np.abs(u[:n1]).max()
+
+
+def test_pure_moment_on_a_bonded_circle():
+    """M / (A D s_u) = 0.67 (Gourvenec & Randolph 2003, from memory), harmonics 0..2, T15,
+    h = B / 20 at the edge: -2 ... +6 %; the coarser mesh (B / 10) is higher (the error
+    falls on refinement)."""
+    B = 2.0
+    A = np.pi * B**2 / 4
+    fine = run_harmonic_footing(HarmonicFooting(su=SU, harmonics=2, control="rotation",
+                                                target=0.02, h_near=0.05))
+    coarse = run_harmonic_footing(HarmonicFooting(su=SU, harmonics=2, control="rotation",
+                                                  target=0.02, h_near=0.1))
+    assert fine.plateau_change < 0.01
+    _band(fine.collapse / (A * B * SU), 0.67, -0.02, 0.06)
+    assert fine.collapse < coarse.collapse
+
+
+def test_plane_springs_tangent_matches_finite_differences():
+    """The tangent of the ring springs (axial t-z bounds, isotropic p-y radial return, on 9
+    planes, harmonics 0..3) against central differences of the forces, with springs yielded
+    on some planes only (the blocks between harmonics included)."""
+    rng = np.random.default_rng(3)
+    pl = CircumferentialPlanes(range(4), 9)
+    s = 6
+    beam = np.arange(3 * s).reshape(s, 3)
+    soil = 3 * s + np.arange(3 * s).reshape(s, 3)
+    sp = PlaneSprings("ring", 12, np.array([0.1, -0.995]) / np.hypot(0.1, 0.995), beam, soil,
+                      np.full(s, 2e4), np.full(s, 5e4), np.full(s, -30.0), np.full(s, 40.0),
+                      np.full(s, 25.0), pl)
+    n_dofs = 6 * s
+    u = 1e-3 * rng.normal(size=(4, n_dofs))
+    st = sp.initial_state()
+    f, (diag, plastic, Kp), new = sp.evaluate(u[:, sp.element_dofs], st)
+    assert 0 < new.at_limit.sum() < new.at_limit.size  # yielded on some planes only
+    h, ed = 4, sp.element_dofs
+    K = np.zeros((h, h, *diag.shape[1:]))
+    K[np.arange(h), np.arange(h)] = diag
+    K[:, :, plastic] = Kp
+    eps = 1e-8
+    for a in range(h):
+        for j in range(ed.shape[1]):
+            du = np.zeros_like(u)
+            du[a, ed[:, j]] = eps  # element j-th DOF of every spring (distinct DOFs)
+            fp = sp.evaluate((u + du)[:, ed], st, tangent=False)[0]
+            fm = sp.evaluate((u - du)[:, ed], st, tangent=False)[0]
+            fd = (fp - fm) / (2 * eps)  # (h, s, i)
+            an = K[:, a, :, :, j]  # (h, s, i)
+            assert np.allclose(fd, an, rtol=1e-5, atol=1e-5 * np.abs(K).max())
+
+
+def test_spring_forces_reduce_to_the_ring_factors_when_elastic():
+    """Nothing yields: n = 0 forces are N k d, n >= 1 forces N k d / 2 (the ring factors of
+    femcore.harmonic_rings, Fourier orthogonality over the circle)."""
+    pl = CircumferentialPlanes(range(3), 7)
+    beam = np.arange(3).reshape(1, 3)
+    big = np.full(1, 1e12)
+    sp = PlaneSprings("r", 10, np.array([0.0, -1.0]), beam, None, np.full(1, 3.0),
+                      np.full(1, 5.0), -big, big, big, pl)
+    u = np.array([[0.2, 0.3, 0.0], [0.5, -0.1, 0.7], [0.1, 0.4, -0.2]])  # (h, 3)
+    f, _, _ = sp.evaluate(u[:, None, :], sp.initial_state(), tangent=False)
+    k = np.array([5.0, 3.0, 5.0])  # global (U, W, V): pile axis vertical -> W axial
+    for a, fac in enumerate((10.0, 5.0, 5.0)):
+        expect = fac * k * u[a]
+        if a == 0:
+            expect[2] = 0.0  # V_0 is not on the planes (torsion)
+        assert np.allclose(f[a, 0], expect, rtol=1e-12)
+
+
+@pytest.fixture(scope="module")
+def demo_harmonic():
+    from femcore.foundation.run import run_design
+
+    d = demo_design(geometry="harmonic", element="T6", mesh="coarse", harmonics=2)
+    return run_design(d, dynamic=False)
+
+
+def test_demo_first_secant_is_the_elastic_harmonic_stiffness(demo_harmonic):
+    """The curve's initial secant (1e-4 rad, before yield) equals the linear harmonic solve
+    of the same model to 1 %."""
+    kp = demo_harmonic.keypoints["initial_stiffness"]
+    assert kp.extra["curve"] == pytest.approx(kp.value, rel=0.01)
+
+
+def test_demo_harmonic_run_reports_like_the_slice(demo_harmonic):
+    """A capacity with its plateau, the requirements decided, ring envelopes with the
+    tension of the heel piles and the compression of the toe piles."""
+    r = demo_harmonic
+    assert r.status == "ok"
+    ult = r.keypoints["ultimate"]
+    assert not ult.extra["censored"]
+    assert ult.value > r.curve["moment"][0]
+    assert all(c.passed is not None for k, c in r.requirements.items()
+               if k != "dynamic_stiffness")  # the run skipped the dynamic analysis
+    assert len(r.piles) == 2
+    for p in r.piles:
+        assert p.max_compression > 0 and p.max_tension > 0
+    assert r.model["harmonics"] == 2 and r.model["planes"] == 7
+
+
+def test_too_few_planes_exit_2_naming_the_field(tmp_path, capsys):
+    from femcore.foundation.design import demo_design as dd
+
+    data = copy.deepcopy(dd().model_dump(mode="json", exclude_none=True))
+    data["analysis"].update(geometry="harmonic", harmonics=4, planes=5)
+    path = tmp_path / "few.toml"
+    path.write_text(toml_text(data))
+    assert cli.main(["check", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert "analysis.planes = 5" in err and "need >= 6" in err and "Traceback" not in err
