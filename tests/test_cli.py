@@ -239,26 +239,28 @@ def test_random_perturbations_never_traceback(tmp_path, path, value):
 
 
 def test_harmonic_run_end_to_end(tmp_path, capsys):
-    """geometry = "harmonic": the elastic 3D analysis alone. Exit 0, result.json valid, the
-    initial stiffness equals the Python API's harmonic solve, the capacity and secant checks
-    are "not decided" (no pushover), the dynamic check is decided; the summary says so."""
+    """geometry = "harmonic": the 3D pushover of the coupled harmonics. Exit 0, result.json
+    valid, the initial stiffness equals the Python API's linear harmonic solve (to 1e-9),
+    every check decided (the capacity from the curve's plateau), the curve written; the
+    summary says so."""
     from femcore.foundation.elastic3d import harmonic_stiffness
 
     data = _bad(("analysis.geometry", "harmonic"))
-    data["analysis"].update(element="T6", mesh="coarse")
+    data["analysis"].update(element="T6", mesh="coarse", harmonics=2)
     path = tmp_path / "harm.toml"
     path.write_text(toml_text(data))
     out = tmp_path / "out"
     assert cli.main(["run", str(path), "--out", str(out)]) == 0
     printed = capsys.readouterr().out
-    assert "harmonic" in printed and "Caution" in printed
+    assert "harmonics 0-2 on 7 planes" in printed and "Caution" in printed
     res = json.loads((out / "result.json").read_text())
     result_file_model().model_validate(res)
     ref = harmonic_stiffness(load_design(path))
     assert res["keypoints"]["initial_stiffness"]["value"] == pytest.approx(ref.value, rel=1e-9)
-    assert res["requirements"]["capacity"]["passed"] is None
+    assert res["requirements"]["capacity"]["passed"] is not None
     assert res["requirements"]["dynamic_stiffness"]["passed"] is not None
     assert res["elastic"]["K_R"] > 0 and res["dynamic"]["method"].startswith("harmonic")
+    assert (out / "curve.csv").stat().st_size > 0 and res["design_strength"]["keypoints"]
 
 
 def test_harmonic_with_a_two_pile_ring_is_refused(tmp_path, capsys):

@@ -551,7 +551,10 @@ def run_harmonic(design: Design, dynamic: bool = True,
         keep = ("ultimate", "yield_equal_energy", "yield_tangents", "ultimate_hyperbolic")
         strength = {"ultimate": fkp.get("ultimate"), "seconds": time.perf_counter() - ts,
                     "record": {"factors": design.design_strength.model_dump(),
-                               "status": "ok" if flog.failed is None else "diverged",
+                               "status": "diverged" if flog.failed is not None else
+                               ("censored" if fkp.get("ultimate") is not None and
+                                fkp["ultimate"].extra.get("censored") else "ok"),
+                               "increments": None if fres is None else len(fres.records),
                                "message": flog.last.result.message if flog.last.result
                                else "", "keypoints": {k: fkp[k].as_dict() for k in keep
                                                       if k in fkp},

@@ -180,8 +180,12 @@ def _print_summary(result, out: Path, t_total: float) -> None:
             print(f"  {name:28s} {chk.verdict:11s}{margin}".rstrip())
     tm = result.timings
     if result.model.get("geometry") == "harmonic":
-        print(f"timings       {t_total:.1f} s total (harmonic solves "
-              f"{tm.get('harmonic_s', 0):.1f} s, {result.model.get('dofs')} DOFs)")
+        extra = (f", design-strength pushover {tm['design_strength_s']:.1f} s"
+                 if "design_strength_s" in tm else "")
+        print(f"timings       {t_total:.1f} s total (elastic harmonic solves "
+              f"{tm.get('harmonic_s', 0):.1f} s, pushover {tm.get('pushover_s', 0):.1f} s: "
+              f"return maps {tm.get('return_map_s', 0):.1f} s, linear solves "
+              f"{tm.get('solve_s', 0):.1f} s{extra}; {result.model.get('dofs')} DOFs)")
     else:
         parts = [f"{label} {tm[key]:.1f} s" for key, label in
                  (("harmonic_s", "harmonic 3D solve"), ("calibration_s", "slice calibration"))
