@@ -401,16 +401,65 @@ class _DirectSolve:
         return x
 
 
+class _LaggedSolve:
+    """``.solve(r)`` by GMRES on the assembled coupled tangent, preconditioned by the
+    factorization of an earlier coupled tangent (kept while GMRES converges within
+    ``settings.refresh_after`` iterations, then refactorized): Newton-Krylov with a lagged
+    preconditioner, fewer factorizations than the direct solve."""
+
+    def __init__(self, tangent: CoupledTangent, cmap: CombinedMap, cache: dict,
+                 settings: KrylovSettings) -> None:
+        A = sp.block_diag(tangent.reduced_diagonal(cmap), format="csc")
+        if tangent.coupling:
+            A = (A + (cmap.TT @ tangent.coupling_matrix() @ cmap.T)).tocsc()
+        self.A, self.cache, self.settings = A, cache, settings
+        if cache.get("lu") is None or cache.get("refresh") or cache.get("cmap") is not cmap:
+            t = time.perf_counter()
+            cache.update(lu=factorize(A), refresh=False, cmap=cmap, fresh=True)
+            SOLVER_STATS["direct_factorizations"] += 1
+            SOLVER_STATS["factor_s"] += time.perf_counter() - t
+        else:
+            cache["fresh"] = False
+        self.fresh = cache["fresh"]
+        self.lu = cache["lu"]
+
+    def solve(self, r: NDArray[np.float64]) -> NDArray[np.float64]:
+        t = time.perf_counter()
+        SOLVER_STATS["solves"] += 1
+        if self.fresh:  # the factorization is of this very tangent
+            x = self.lu.solve(r)
+            SOLVER_STATS["solve_s"] += time.perf_counter() - t
+            return x
+        n = r.size
+        M = spla.LinearOperator((n, n), matvec=self.lu.solve, dtype=np.float64)
+        count = [0]
+
+        def cb(_):
+            count[0] += 1
+
+        s = self.settings
+        x, info = spla.gmres(self.A, r, M=M, rtol=s.rtol, restart=s.restart,
+                             maxiter=s.maxiter, callback=cb, callback_type="pr_norm")
+        SOLVER_STATS["gmres_iterations"] += count[0]
+        SOLVER_STATS["solve_s"] += time.perf_counter() - t
+        if info != 0 or count[0] > s.refresh_after:
+            self.cache["refresh"] = True
+        if info != 0:
+            raise SolverError(f"GMRES did not converge in {count[0]} iterations")
+        return x
+
+
 def coupled_residual(model: CoupledModel, solver: str = "krylov",
                      krylov: KrylovSettings | None = None):
     """A residual factory for :class:`~femcore.stepping.Stepper`: ``(cmap, f_ext, states) ->
     (u_free -> (r, solver_of_tangent, scale, payload))`` with ``solver`` "krylov" or
     "direct" (module docstring). The Krylov preconditioner is shared by every call of one
     factory (one stage)."""
-    if solver not in ("krylov", "direct"):
-        raise ValueError(f"solver {solver!r}: use 'krylov' or 'direct'")
+    if solver not in ("krylov", "direct", "lagged"):
+        raise ValueError(f"solver {solver!r}: use 'lagged', 'krylov' or 'direct'")
     cache: dict = {}
     settings = krylov or KrylovSettings()
+    lagged = krylov or KrylovSettings(rtol=1e-8, refresh_after=8)
 
     def factory(cmap: CombinedMap, f_ext: NDArray[np.float64], states: list):
         f_ext_red = np.linalg.norm(cmap.reduce_vector(f_ext))
@@ -425,6 +474,8 @@ def coupled_residual(model: CoupledModel, solver: str = "krylov",
             def make():
                 if solver == "direct":
                     return _DirectSolve(tangent, cmap)
+                if solver == "lagged":
+                    return _LaggedSolve(tangent, cmap, cache, lagged)
                 return _KrylovSolve(tangent, cmap, cache, settings)
 
             return cmap.reduce_vector(r_full), make, scale, (u, trial, generalized)

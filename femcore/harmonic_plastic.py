@@ -21,6 +21,7 @@ the same on every plane).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 import scipy.sparse as sp
@@ -69,7 +70,7 @@ class HarmonicMohrCoulomb:
             self._geoms[n] = self.ring.harmonic(n)
         return self._geoms[n]
 
-    @property
+    @cached_property
     def D(self) -> NDArray[np.float64]:
         return elastic_matrix_3d(self.E, self.nu)  # (c, q, 6, 6)
 
@@ -113,18 +114,17 @@ class HarmonicMohrCoulomb:
         m = pl.n_planes
         eps = pl.to_planes(self._strains(u_e))  # (m, c, q, 6)
         D = self.D  # (c, q, 6, 6)
-        trial = state.stress + np.einsum("cqij,kcqj->kcqi", D, eps - state.strain)
+        trial = state.stress + np.matmul(D[None], (eps - state.strain)[..., None])[..., 0]
         shape = trial.shape
         n_pts = int(np.prod(shape[:-1]))
-        Dk = np.broadcast_to(D, (m, *D.shape)).reshape(n_pts, 6, 6).copy()
         G = np.broadcast_to(self.E / (2.0 * (1.0 + self.nu)), shape[:-1]).reshape(-1)
         K = np.broadcast_to(self.E / (3.0 * (1.0 - 2.0 * self.nu)), shape[:-1]).reshape(-1)
         c = np.broadcast_to(self.cohesion, shape[:-1]).reshape(-1)
         t = None if self.cutoff is None else \
             np.broadcast_to(self.cutoff, shape[:-1]).reshape(-1)
         sp_, ss = np.sin(np.radians(self.phi)), np.sin(np.radians(self.psi))
-        stress, yielded, _ = mohr_coulomb_update_3d(
-            trial.reshape(n_pts, 6), G, K, c, sp_, ss, np.cos(np.radians(self.phi)), t, Dk)
+        stress, yielded, _, C_p = mohr_coulomb_update_3d(
+            trial.reshape(n_pts, 6), G, K, c, sp_, ss, np.cos(np.radians(self.phi)), t, None)
         stress = stress.reshape(shape)
         yielded = yielded.reshape(shape[:-1])  # (m, c, q)
         s_amp = pl.to_harmonics(stress)  # (h, c, q, 6)
@@ -135,9 +135,17 @@ class HarmonicMohrCoulomb:
             return f, None, new
         plastic = np.flatnonzero(yielded.any(axis=(0, 2)))  # (p,)
         diag = self.elastic_blocks().copy()  # (h, c, i, i)
-        Kp = self._coupled_blocks(Dk.reshape(*shape, 6)[:, plastic], plastic)
-        h = len(pl.harmonics)
-        diag[:, plastic] = Kp[np.arange(h), np.arange(h)]
+        if plastic.size:
+            Cc = np.broadcast_to(D[plastic], (m, *D[plastic].shape)).copy()  # (m, p, q, 6, 6)
+            k, cell, qq = np.nonzero(yielded)  # the order of np.flatnonzero(yielded)
+            pos = np.full(shape[1], -1)
+            pos[plastic] = np.arange(plastic.size)
+            Cc[k, pos[cell], qq] = C_p
+            Kp = self._coupled_blocks(Cc, plastic)
+            h = len(pl.harmonics)
+            diag[:, plastic] = Kp[np.arange(h), np.arange(h)]
+        else:
+            Kp = np.zeros((len(pl.harmonics), len(pl.harmonics), 0, *diag.shape[2:]))
         return f, (diag, plastic, Kp), new
 
     def _coupled_blocks(self, C: NDArray[np.float64], cells: NDArray[np.int64]):

@@ -132,3 +132,27 @@ def test_consistent_tangent_matches_finite_differences(seed):
     assert checked >= 10
     main = np.flatnonzero(region == 0)  # the main plane MC13: non-associated flow
     assert main.size and not np.allclose(Ct[main[0]], Ct[main[0]].T)
+
+
+def test_closed_form_principal_values_match_lapack():
+    """The screening principal values (Smith 1961, trigonometric form of the cubic) against
+    LAPACK's eigh: random stresses, and two or three equal values (the hard cases), within
+    1e-7 of the stress scale."""
+    from materials.mohr_coulomb import principal_values
+
+    rng = np.random.default_rng(7)
+    s = rng.normal(scale=50.0, size=(2000, 6))
+    Q = np.linalg.qr(rng.normal(size=(3, 3)))[0]
+    eq = []
+    for lam in ([-30.0, -30.0, -80.0], [-20.0, -20.0, -20.0], [10.0, -5.0, -5.0]):
+        T = Q @ np.diag(lam) @ Q.T
+        eq.append([T[0, 0], T[1, 1], T[2, 2], T[0, 1], T[1, 2], T[0, 2]])
+    s = np.vstack([s, eq])
+    T = np.zeros((len(s), 3, 3))
+    idx = [(0, 0), (1, 1), (2, 2), (0, 1), (1, 2), (0, 2)]
+    for k, (i, j) in enumerate(idx):
+        T[:, i, j] = T[:, j, i] = s[:, k]
+    ref = np.linalg.eigvalsh(T)[:, ::-1]
+    scale = np.abs(ref).max(axis=1, keepdims=True)
+    assert np.abs(principal_values(s) - ref).max() <= 1e-7 * scale.max()
+    assert np.all(np.abs(principal_values(s) - ref) <= 1e-7 * scale)
