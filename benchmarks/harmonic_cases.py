@@ -157,6 +157,42 @@ def _cap_size(model: str):
     return run
 
 
+def _circle(control: str, rough: bool = True, harmonics: int = 0, scale=None):
+    """The rigid circle of the harmonic pushover (benchmarks/footing.py): vertical pressure,
+    horizontal force or moment normalised as the reference (h = B/10 quick, B/20 full)."""
+    def run(quick: bool):
+        import numpy as np
+
+        from .footing import HarmonicFooting, run_harmonic_footing
+
+        B, su = 2.0, 10.0
+        r = run_harmonic_footing(HarmonicFooting(
+            su=su, B=B, harmonics=harmonics, control=control, rough=rough,
+            h_near=0.1 if quick else 0.05, target=0.05 if control == "settlement" else 0.02))
+        area = np.pi * B**2 / 4
+        norm = {"settlement": su, "horizontal": su, "rotation": area * B * su}[control]
+        po = r.pushover
+        return r.collapse / norm, {"n_dofs": r.n_dofs, "increments": len(po.records),
+                                   "iterations": int(po.iterations.sum()),
+                                   "plateau_change": r.plateau_change}
+    return run
+
+
+def _demo_harmonics(quick: bool):
+    """The demo's harmonic ultimate with N = 4 over N = 8 (T6 coarse quick, T15 standard)."""
+    from femcore.foundation.design import demo_design
+    from femcore.foundation.run import run_harmonic
+
+    cfg = {"element": "T6", "mesh": "coarse"} if quick else {}
+    ult = {}
+    for N in (4, 8):
+        d = demo_design(geometry="harmonic", harmonics=N, **cfg).model_copy(
+            update={"design_strength": None})
+        r = run_harmonic(d, dynamic=False)
+        ult[N] = r.keypoints["ultimate"].value
+    return ult[4] / ult[8], {"ultimate_N4_MNm": ult[4] / 1e3, "ultimate_N8_MNm": ult[8] / 1e3}
+
+
 SRC_3D = "3D FE in the run (scikit-fem P2 tetrahedra, same geometry)"
 SRC_3D_EXT = SRC_3D + ", extrapolated h -> 0"
 CASES: dict[str, Case] = {c.name: c for c in [
@@ -186,4 +222,22 @@ CASES: dict[str, Case] = {c.name: c for c in [
          "3D: cap size without contact does not matter", _cap_size("harmonic")),
     Case("cap_size_artefact_calibrated_slice", 1.0, (-0.05, 0.05),
          "3D: cap size without contact does not matter", _cap_size("calibrated")),
+    Case("harmonic_pushover_circle_rough_vertical", 6.05, (0.0, 0.04),
+         "Eason & Shield 1960, rough circle on Tresca (from memory); n = 0",
+         _circle("settlement")),
+    Case("harmonic_pushover_circle_rough_vertical_N2", 6.05, (0.0, 0.04),
+         "Eason & Shield 1960 (from memory); harmonics 0-2", _circle("settlement",
+                                                                     harmonics=2)),
+    Case("harmonic_pushover_circle_smooth_vertical", 5.69, (0.0, 0.04),
+         "Shield 1955, smooth circle on Tresca (from memory)",
+         _circle("settlement", rough=False)),
+    Case("harmonic_pushover_circle_moment_bonded", 0.67, (-0.02, 0.08),
+         "Gourvenec & Randolph 2003, M/(A D s_u) of a bonded circle (from memory)",
+         _circle("rotation", harmonics=2)),
+    Case("harmonic_pushover_circle_horizontal_rough", 1.0, (0.0, 0.15),
+         "sliding of a rough circle H = A s_u (common practice)",
+         _circle("horizontal", harmonics=1)),
+    Case("harmonic_pushover_demo_N4_vs_N8", 1.0, (-0.03, 0.03),
+         "the demo's harmonic ultimate with N = 8 (issue target: within 3 %)",
+         _demo_harmonics),
 ]}

@@ -45,6 +45,7 @@ from .harmonic_planes import CircumferentialPlanes
 from .linsolve import SolverError, factorize
 
 __all__ = ["CoupledModel", "CombinedMap", "combine_maps", "PlaneSprings", "SpringPlaneState",
+           "PlaneContact", "ContactPlaneState",
            "CoupledTangent", "coupled_residual", "SOLVER_STATS"]
 
 #: counters of the coupled linear solves (reset by the caller): factorizations of diagonal
@@ -193,6 +194,119 @@ class PlaneSprings:
     def pile_forces(self, state: SpringPlaneState) -> NDArray[np.float64]:
         """Forces of one pile's springs on every plane ``(m, s, 3)`` (kN)."""
         return state.f
+
+
+@dataclass
+class ContactPlaneState:
+    """Per plane and node pair: relative displacement (radial shear, opening, hoop shear)
+    ``(m, s, 3)``, the slip of both shear directions ``(m, s, 2)``, the tractions ``(m, s,
+    3)`` and whether the pair is open / slipping ``(m, s)``."""
+
+    d: NDArray[np.float64]
+    slip: NDArray[np.float64]
+    traction: NDArray[np.float64]
+    open: NDArray[np.bool_]
+    sliding: NDArray[np.bool_]
+
+
+@dataclass(eq=False)
+class PlaneContact:
+    """A no-tension Coulomb contact (lift-off, sliding) between node pairs on the planes.
+
+    Pair p joins ``soil (s, 3)`` to ``cap (s, 3)`` harmonic DOFs (U, W, V); ``tangent`` and
+    ``normal`` ``(s, 2)`` in the (r, z) plane, the normal pointing from the soil to the cap;
+    ``area (s,)`` the nodal area per radian (m^2/rad). On plane theta the relative motion
+    cap - soil is (radial shear, opening, hoop shear) = ``sum_n diag(cos, cos, sin)(n theta)
+    d_n``. Closed (opening <= 0): pressure ``k_n`` times the overlap, shear ``k_s`` times
+    the elastic shear, bounded by ``cohesion + tan_delta * pressure`` with a radial return
+    on both shear directions together; open: no traction (the slip follows). Tractions
+    times the area per radian are projected back with the plane weights.
+    """
+
+    name: str
+    soil: NDArray[np.int64]
+    cap: NDArray[np.int64]
+    tangent: NDArray[np.float64]
+    normal: NDArray[np.float64]
+    area: NDArray[np.float64]
+    k_n: NDArray[np.float64]
+    k_s: NDArray[np.float64]
+    cohesion: NDArray[np.float64]
+    tan_delta: NDArray[np.float64]
+    planes: CircumferentialPlanes
+    residual_tangent: float = 1e-6
+    element_dofs: NDArray[np.int64] = field(init=False)
+
+    def __post_init__(self) -> None:
+        s = self.area.size
+        R = np.zeros((s, 3, 3))  # local rows (radial shear, opening, hoop) of (U, W, V)
+        R[:, 0, :2], R[:, 1, :2], R[:, 2, 2] = self.tangent, self.normal, 1.0
+        self._B = np.concatenate([R, -R], axis=2)  # (s, 3, 6): d = u_cap - u_soil
+        self.element_dofs = np.concatenate([self.cap, self.soil], axis=1)  # (s, 6)
+        pl = self.planes
+        c, sn = pl.T[..., 0], pl.T[..., 4]
+        self._S = np.stack([c, c, sn], axis=-1)  # (m, h, 3)
+        self._wS = pl.w[:, None, None] * self._S
+
+    def stiffness(self, n: int) -> NDArray[np.float64]:
+        """Closed, sticking contact: the element stiffness of harmonic n (c_n included)."""
+        from .harmonic import harmonic_factor
+
+        k = np.stack([self.k_s, self.k_n, self.k_s if n else 0.0 * self.k_s], axis=1)
+        return harmonic_factor(n) * np.einsum("ski,sk,skj->sij", self._B,
+                                              k * self.area[:, None], self._B)
+
+    def initial_state(self) -> ContactPlaneState:
+        m, s = self.planes.n_planes, self.area.size
+        z = np.zeros((m, s, 3))
+        f = np.zeros((m, s), dtype=bool)
+        return ContactPlaneState(z, np.zeros((m, s, 2)), z.copy(), f, f.copy())
+
+    def evaluate(self, u_e: NDArray[np.float64], state: ContactPlaneState,
+                 tangent: bool = True):
+        """Like :meth:`PlaneSprings.evaluate`."""
+        d_amp = np.einsum("ski,hsi->hsk", self._B, u_e)  # (h, s, 3)
+        d = np.einsum("mhk,hsk->msk", self._S, d_amp)  # (m, s, 3)
+        kn, ks = self.k_n[None, :], self.k_s[None, :]
+        gap = d[..., 1]
+        is_open = gap > 0.0
+        p = np.where(is_open, 0.0, -kn * gap)  # pressure >= 0
+        shear = d[..., [0, 2]]
+        tau_t = ks[..., None] * (shear - state.slip)  # (m, s, 2)
+        size = np.hypot(tau_t[..., 0], tau_t[..., 1])
+        limit = self.cohesion[None, :] + self.tan_delta[None, :] * p
+        sliding = ~is_open & (size > limit)
+        ratio = np.where(sliding, limit / np.maximum(size, 1e-300), 1.0)
+        tau = np.where(is_open[..., None], 0.0, tau_t * ratio[..., None])
+        slip = np.where(is_open[..., None], shear,
+                        np.where(sliding[..., None], shear - tau / ks[..., None], state.slip))
+        trac = np.stack([tau[..., 0], -p, tau[..., 1]], axis=-1)  # (m, s, 3) on the cap
+        new = ContactPlaneState(d, slip, trac, is_open, sliding)
+        F = np.einsum("mhk,msk->hsk", self._wS, trac) * self.area[None, :, None]  # (h, s, 3)
+        f_e = np.einsum("ski,hsk->hsi", self._B, F)
+        if not tangent:
+            return f_e, None, new
+        rt = self.residual_tangent
+        C = np.zeros((*d.shape[:2], 3, 3))  # (m, s, 3, 3) in (radial, opening, hoop)
+        e = tau_t / np.maximum(size, 1e-300)[..., None]  # (m, s, 2)
+        eye = np.eye(2)
+        Css = np.where(sliding[..., None, None],
+                       ratio[..., None, None] * (eye - e[..., :, None] * e[..., None, :]),
+                       eye) * ks[..., None, None]
+        Css = np.where(is_open[..., None, None], rt * ks[..., None, None] * eye, Css)
+        C[..., 0, 0], C[..., 0, 2] = Css[..., 0, 0], Css[..., 0, 1]
+        C[..., 2, 0], C[..., 2, 2] = Css[..., 1, 0], Css[..., 1, 1]
+        C[..., 1, 1] = np.where(is_open, rt * kn, kn)
+        coup = np.where(sliding, -self.tan_delta[None, :] * kn, 0.0)  # d tau / d opening
+        C[..., 0, 1] = coup * e[..., 0]
+        C[..., 2, 1] = coup * e[..., 1]
+        Kc = np.einsum("mhk,mskl,mgl->hgskl", self._wS, C, self._S) \
+            * self.area[None, None, :, None, None]
+        Ke = np.einsum("ski,hgskl,slj->hgsij", self._B, Kc, self._B)  # (h, h, s, 6, 6)
+        changed = (is_open | sliding).any(axis=0)
+        plastic = np.flatnonzero(changed)
+        h = Ke.shape[0]
+        return f_e, (Ke[np.arange(h), np.arange(h)], plastic, Ke[:, :, plastic]), new
 
 
 # --------------------------------------------------------------------------- model

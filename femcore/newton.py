@@ -56,6 +56,7 @@ def newton(
     divergence: float = 1e6,
     reuse: dict | None = None,
     line_search: bool = False,
+    keep: float | None = None,
 ) -> NewtonResult:
     """Solve ``r(x) = 0``.
 
@@ -79,6 +80,11 @@ def newton(
     line_search : backtrack a full step that increases the residual (steps 1, 1/2, 1/4,
         1/8 of the Newton step; the first that lowers the relative residual, else the
         smallest): for iterations that oscillate where contact or yield states flip.
+    keep : optional ratio: a factorization is kept for the following iterations too (modified
+        Newton) while each of them lowers the residual at least by this factor; a new one is
+        made as soon as one does not. For models whose factorization costs many residual
+        evaluations (the coupled harmonics). None: only the first iteration reuses, with the
+        factor 10 above.
     """
     x = np.array(x0, dtype=np.float64)
     history: list[float] = []
@@ -99,7 +105,7 @@ def newton(
             return NewtonResult(x, it, history, payload)
         if it == max_iter:
             break
-        if used_stale and rel > 0.1 * history[-2]:
+        if used_stale and rel > (0.1 if keep is None else keep) * history[-2]:
             stale = None  # the old tangent is not good enough any more
         try:
             if stale is not None:
@@ -110,6 +116,8 @@ def newton(
                 used_stale = False
                 if reuse is not None:
                     reuse["lu"] = lu
+                if keep is not None:
+                    stale = lu
             t0 = time.perf_counter()
             dx = lu.solve(r)
             STATS["seconds"] += time.perf_counter() - t0

@@ -825,3 +825,24 @@ def test_failing_derived_value_is_recorded_as_invalid_input(tmp_path):
         else:
             assert r["soil.layers.0.su_gradient"] == pytest.approx(
                 math.sqrt(r["cap.diameter"] - 8.25), rel=1e-12)
+
+
+def test_campaign_of_harmonic_designs(tmp_path):
+    """geometry = "harmonic" in a campaign: every sample runs the harmonic pushover and its
+    record has the curve and a capacity; the stored ultimate is the one run_design gives
+    for the same sample (to 1e-9)."""
+    space = _space(tmp_path, size=2, extra=FAST).read_text().replace(
+        'element = "T6"\n', 'element = "T6"\ngeometry = "harmonic"\nharmonics = 2\n')
+    p = tmp_path / "harmonic.toml"
+    p.write_text(space)
+    store = tmp_path / "h.sqlite"
+    summary = run_campaign(p, store, workers=1, quiet=True)
+    assert summary["finished"] == 2
+    rows = Store(store).rows()
+    assert all(r["status"] in ("ok", "censored") for r in rows)
+    assert all(len(r["curve"]["rotation"]) == 40 for r in rows)
+    s = load_space(p)
+    d = design_from_dict(design_dict(s, sample_space(s)[0])).model_copy(
+        update={"design_strength": None})
+    ref = run_design(d).keypoints["ultimate"].value
+    assert rows[0]["keypoints"]["ultimate"] == pytest.approx(ref, rel=1e-9)

@@ -119,7 +119,7 @@ BAD_INPUTS = [
     (("loading.rotation_max", 2.0), "loading.rotation_max"),
     (("name", ...), "name"),
     (("analysis.harmonics", 0), "analysis.harmonics"),
-    (("analysis.harmonics", 12), "analysis.harmonics"),
+    (("analysis.harmonics", 13), "analysis.harmonics"),
     (("analysis.geometry", "3d"), "analysis.geometry"),
     (("analysis.slice_length", "auto"), "analysis.slice_length"),
     (("piles.rings.0.radius", -1.0), "piles.rings.0.radius"),

@@ -168,3 +168,41 @@ def test_too_few_planes_exit_2_naming_the_field(tmp_path, capsys):
     assert cli.main(["check", str(path)]) == 2
     err = capsys.readouterr().err
     assert "analysis.planes = 5" in err and "need >= 6" in err and "Traceback" not in err
+
+
+def test_plane_contact_tangent_matches_finite_differences():
+    """The no-tension Coulomb contact on the planes: with some pairs open, some sliding and
+    some sticking (a rocking motion over a settlement), its tangent against central
+    differences of its forces (the unsymmetric friction coupling included)."""
+    from femcore.harmonic_coupled import PlaneContact
+
+    rng = np.random.default_rng(5)
+    pl = CircumferentialPlanes(range(3), 7)
+    s = 5
+    soil = np.arange(3 * s).reshape(s, 3)
+    cap = 3 * s + np.arange(3 * s).reshape(s, 3)
+    t = np.tile([1.0, 0.0], (s, 1))
+    n = np.tile([0.0, 1.0], (s, 1))
+    ct = PlaneContact("c", soil, cap, t, n, np.full(s, 0.3), np.full(s, 1e4), np.full(s, 1e4),
+                      np.full(s, 2.0), np.full(s, 0.5), pl, residual_tangent=0.0)
+    u = np.zeros((3, 6 * s))
+    u[0, cap[:, 1]] = -2e-3  # settlement (n = 0): closed everywhere
+    u[1, cap[:, 1]] = 3e-3 * (1 + rng.random(s))  # rocking (n = 1): lift-off at theta = pi
+    u[1, cap[:, 0]] = 1e-3 * rng.normal(size=s)  # shear: some pairs slide
+    u[2] = 2e-4 * rng.normal(size=6 * s)
+    st = ct.initial_state()
+    f, (diag, changed, Kp), new = ct.evaluate(u[:, ct.element_dofs], st)
+    assert new.open.any() and new.sliding.any() and (~new.open & ~new.sliding).any()
+    h, ed = 3, ct.element_dofs
+    K = np.zeros((h, h, *diag.shape[1:]))
+    K[np.arange(h), np.arange(h)] = diag
+    K[:, :, changed] = Kp
+    eps = 1e-9
+    for a in range(h):
+        for j in range(ed.shape[1]):
+            du = np.zeros_like(u)
+            du[a, ed[:, j]] = eps
+            fp = ct.evaluate((u + du)[:, ed], st, tangent=False)[0]
+            fm = ct.evaluate((u - du)[:, ed], st, tangent=False)[0]
+            assert np.allclose((fp - fm) / (2 * eps), K[:, a, :, :, j], rtol=1e-4,
+                               atol=1e-5 * np.abs(K).max())

@@ -254,7 +254,7 @@ def _problems(data: dict) -> list[str]:
     return exc.value.problems
 
 
-@pytest.mark.parametrize("value", [0, 9, 2.5])
+@pytest.mark.parametrize("value", [0, 13, 2.5])
 def test_harmonics_out_of_range(value):
     data = _demo_dict()
     data["analysis"].update(geometry="harmonic", harmonics=value)

@@ -467,6 +467,18 @@ def build_model(design: Design, slice_length: float | None = None,
     return BuiltModel(design, model, cons, "ref", ref_xy, ped_top, L, pile_rows, profile, meta)
 
 
+def cap_contact_law(design: Design, soil_at, m: int):
+    """Stiffness (kPa/m), cohesion (kPa) and friction coefficient of ``m`` cap-soil contact
+    points (see :func:`_cap_contact`)."""
+    s = soil_at(np.full(m, design.cap.underside_depth + 1e-6))
+    k = 100.0 * s["G"]
+    layer = design.soil.layers[int(soil_at.profile.layer_index(
+        np.array([design.cap.underside_depth + 1e-6]))[0])]
+    if layer.undrained:
+        return k, s["su"], np.zeros(m)
+    return k, np.full(m, layer.c), np.full(m, np.tan(np.radians(2 * layer.phi / 3)))
+
+
 def _cap_contact(mesh: Mesh, underside, new_index, design: Design, soil_at) -> ContactBlock:
     """Cap-soil contact under the cap: no tension, Coulomb shear (undrained: s_u at the
     underside; drained: c' and tan(2 phi' / 3), common practice), normal and shear stiffness
@@ -474,14 +486,7 @@ def _cap_contact(mesh: Mesh, underside, new_index, design: Design, soil_at) -> C
     Newton)."""
     a, b, t, n, w = contact_pairs(mesh, underside, new_index, (0.0, 1.0))
     m = a.size
-    s = soil_at(np.full(m, design.cap.underside_depth + 1e-6))
-    k = 100.0 * s["G"]
-    layer = design.soil.layers[int(soil_at.profile.layer_index(
-        np.array([design.cap.underside_depth + 1e-6]))[0])]
-    if layer.undrained:
-        c, tand = s["su"], np.zeros(m)
-    else:
-        c, tand = np.full(m, layer.c), np.full(m, np.tan(np.radians(2 * layer.phi / 3)))
+    k, c, tand = cap_contact_law(design, soil_at, m)
     return ContactBlock("cap_contact", np.stack([2 * a, 2 * a + 1], 1),
                         np.stack([2 * b, 2 * b + 1], 1), t, n, w, k, k.copy(), c, tand,
                         np.zeros(m))

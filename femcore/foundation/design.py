@@ -142,9 +142,9 @@ class AnalysisSettings(_Model):
         "the axisymmetric mesh with coupled circumferential harmonics and smeared pile "
         "rings)")
     harmonics: int = Field(
-        4, ge=1, le=8, description="highest circumferential harmonic n of the harmonic "
-        "model (1-8); elastic loads live in n = 0 and 1; yield local in theta couples the "
-        "higher ones (4 gives the demo's largest moment within 1 % of 8)")
+        4, ge=1, le=12, description="highest circumferential harmonic n of the harmonic "
+        "model (1-12); elastic loads live in n = 0 and 1; yield local in theta couples the "
+        "higher ones (4 gives the demo's ultimate moment within 1 % of 8)")
     planes: int | None = Field(
         None, ge=3, le=200, description="circumferential planes over [0, pi] on which the "
         "harmonic pushover evaluates plasticity (theta = 0 and pi included); at least "

@@ -39,10 +39,16 @@ from materials import LinearElastic
 from meshing import regions
 
 from ..harmonic import HarmonicConstraints, HarmonicError, HarmonicModel, prescribed_cases
+from ..harmonic_coupled import PlaneContact
+from ..harmonic_planes import CircumferentialPlanes, min_planes
 from ..harmonic_rings import RingLine, RingSpringBlock, add_ring, ring_support, tie_head_to_solid
 from ..linsolve import factorize
+from ..interfaces import contact_pairs
+from ..kinematics import Kinematics
 from .build import (
     BuiltModel,
+    _split_underside,
+    cap_contact_law,
     _cap_polygon,
     _pile_section,
     _row_line,
@@ -150,13 +156,16 @@ class HarmonicFoundation:
 
 
 def build_harmonic(design: Design, near_field: bool = True,
-                   slip: bool = True, n_max: int = 1) -> HarmonicFoundation:
+                   slip: bool = True, n_max: int = 1,
+                   contact: bool = False) -> HarmonicFoundation:
     """The harmonic model of a design with the moduli of its layers (see module docstring).
 
     ``near_field`` False leaves out the discreteness correction, ``slip`` False the slip
     springs (the beams then follow the soil through the near-field springs alone, or rigid
     ties when both are off); both for measuring what they change. ``n_max``: the highest
-    harmonic the model may solve. ``meta["springs"]`` keeps, per ring, what the nonlinear
+    harmonic the model may solve. ``contact`` True gives a frictional cap its own underside
+    nodes joined to the soil by a :class:`~femcore.harmonic_coupled.PlaneContact` (closed
+    and sticking in the elastic model; the harmonic pushover lets it open and slide). ``meta["springs"]`` keeps, per ring, what the nonlinear
     springs of the harmonic pushover need (block indices, nodes, tributary lengths).
     """
     problems = check_harmonic_layout(design)
@@ -182,6 +191,9 @@ def build_harmonic(design: Design, near_field: bool = True,
     if cap.contact == "none":  # the cap touches no soil (no backfill, edge and base free)
         mesh, _, new_index, top_edges = free_cap(mesh, design)
         freed = freed_soil_edges(mesh, design, first_backfill)
+    underside = None
+    if cap.contact == "frictional" and contact:
+        mesh, _, new_index, underside = _split_underside(mesh, head_y, cap.diameter / 2)
     _, ped_top = _cap_polygon(design, half=True)
     model = HarmonicModel(mesh, n_max)
     column = np.zeros(0, dtype=np.int64)
@@ -216,6 +228,16 @@ def build_harmonic(design: Design, near_field: bool = True,
     model.add_reference_point("ref", ped_top)
 
     soil_at = _SoilAtDepth(design, soil_profile(design))
+    contact_block = None
+    if underside is not None:
+        a, b, t, nrm, w = contact_pairs(mesh, underside, new_index, (0.0, 1.0),
+                                        Kinematics.AXISYMMETRIC)
+        k, c, tand = cap_contact_law(design, soil_at, a.size)
+        model.add_element_block(PlaneContact(
+            "cap_contact", np.stack([3 * a, 3 * a + 1, 3 * a + 2], 1),
+            np.stack([3 * b, 3 * b + 1, 3 * b + 2], 1), t, nrm, w / (2 * np.pi), k, k.copy(),
+            c, tand, CircumferentialPlanes(range(n_max + 1), min_planes(n_max))))
+        contact_block = len(model.blocks) - 1
     cap_cells = mesh.cell_sets[regions.CAP]
     rings, heads, nf_info, spring_info = [], [], [], []
     for k, ring in enumerate(piles.rings, start=1):
@@ -273,7 +295,8 @@ def build_harmonic(design: Design, near_field: bool = True,
             "build_s": time.perf_counter() - t0, "springs": spring_info,
             "backfill_edges": top_edges, "freed_edges": freed, "column": column,
             "pedestal_top": ped_top, "layer_blocks": layer_blocks,
-            "column_block": column_block, "cap_block": cap_block}
+            "column_block": column_block, "cap_block": cap_block,
+            "contact_block": contact_block}
     return HarmonicFoundation(design, model, rings, heads, top, mesh.nodes_of("base"),
                               mesh.nodes_of("right"), piles.head == "fixed", "ref", meta,
                               column_ties)

@@ -14,14 +14,15 @@ The stages are those of the slice (:mod:`.stages`) with the loads where they bel
    proportional load) or H held (``rotation``), on the rotation grid of the slice and with
    its plateau stop.
 
-Forces and moments are 3D totals (no slice length). Cap contact ``frictional`` is not yet
-modelled on the planes and is refused.
+Forces and moments are 3D totals (no slice length). A ``frictional`` cap contact is a
+no-tension Coulomb contact on the planes (:class:`~femcore.harmonic_coupled.PlaneContact`):
+the cap lifts off and slides where the planes say so.
 """
 
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from numpy.typing import NDArray
@@ -66,6 +67,16 @@ __all__ = ["HarmonicBuilt", "build_coupled", "harmonic_stages", "default_planes"
 #: "direct" measured faster than "krylov" on the coarse T6 demo at N = 2 and 4
 #: (docs/harmonic.md)
 SOLVER = "direct"
+
+
+#: modified Newton in the harmonic stages: a factorization of the coupled tangent is kept
+#: while every iteration lowers the residual at least by this factor (a factorization
+#: costs many residual evaluations here; docs/harmonic.md)
+KEEP_FACTORIZATION = 0.7
+
+
+def _keeping(settings: StepSettings) -> StepSettings:
+    return replace(settings, keep_factorization=KEEP_FACTORIZATION)
 
 
 def default_planes(n_max: int) -> int:
@@ -183,10 +194,6 @@ def build_coupled(design: Design, pile_resistance: float = 1.0,
                   solver: str = SOLVER) -> HarmonicBuilt:
     """The coupled harmonic model of a design with ``analysis.geometry = "harmonic"``."""
     problems = check_harmonic_layout(design)
-    if design.cap.contact == "frictional":
-        problems.append("cap.contact = 'frictional': the harmonic pushover does not model the "
-                        "frictional cap contact yet (allowed: 'none', 'bonded'; or "
-                        "analysis.geometry = 'plane_strain')")
     if problems:
         raise HarmonicError("\n".join(problems))
     t0 = time.perf_counter()
@@ -197,7 +204,7 @@ def build_coupled(design: Design, pile_resistance: float = 1.0,
         raise HarmonicError(f"analysis.planes = {M}: too few for harmonics up to {N} "
                             f"(need >= {min_planes(N)}, N + 2)")
     planes = CircumferentialPlanes(range(N + 1), M)
-    hf = build_harmonic(design, n_max=N)
+    hf = build_harmonic(design, n_max=N, contact=True)
     base = hf.model
     tops = np.cumsum([0.0] + [ly.thickness for ly in design.soil.layers])
     nonlinear: dict[int, object] = {}
@@ -213,6 +220,9 @@ def build_coupled(design: Design, pile_resistance: float = 1.0,
         if tip is not None:
             nonlinear[info["tip_block"]] = tip
         springs.append((info["ring"], shaft, tip))
+    cb = hf.meta["contact_block"]
+    if cb is not None:  # the frictional cap contact, on the planes of this run
+        nonlinear[cb] = replace(base.blocks[cb], planes=planes)
     model = CoupledModel(base, planes, nonlinear)
     soil = [k for k, i in enumerate(sorted(nonlinear))
             if isinstance(nonlinear[i], HarmonicMohrCoulomb)]
@@ -308,7 +318,7 @@ def weight_loads(hb: HarmonicBuilt) -> NDArray[np.float64]:
 # --------------------------------------------------------------------------- stages
 def _ramp(hb: HarmonicBuilt, state: StageState, f_end, settings: StepSettings):
     return Stepper(hb.model, hb.free_map, state.f_ext, [], [], f_ext_end=f_end,
-                   settings=settings, residual_factory=hb.residual()).run(
+                   settings=_keeping(settings), residual_factory=hb.residual()).run(
         u0=state.u, states0=state.states)
 
 
@@ -403,8 +413,8 @@ class Push:
                     b.residual_tangent = SPRING_RESIDUAL_TANGENT
         try:
             res = Stepper(hb.model, cmap, state.f_ext, [TH], [target], monitor_dofs=[U, W, TH],
-                          settings=self.settings or pushover_steps(lo.initial_increment
-                                                                   / target),
+                          settings=_keeping(self.settings or pushover_steps(
+                              lo.initial_increment / target)),
                           observer=ring_observer(hb),
                           stop_when=stop if lo.stop_at_plateau else None, grid=grid,
                           max_relative=PUSHOVER_RELATIVE,
@@ -438,7 +448,7 @@ def _positions(count: float, offset_deg: float) -> NDArray[np.float64]:
     return np.unique(np.round(th, 12))
 
 
-def ring_observer(hb: HarmonicBuilt):
+def ring_observer(hb: HarmonicBuilt, per_pile: bool = False):
     """Per ring and committed state, over its pile positions (harmonic sums at their
     angles): head, least and largest axial compression (kN per pile), the largest |bending
     moment| (kNm per pile, the resultant of the in-plane and out-of-plane moments) and the
@@ -455,6 +465,28 @@ def ring_observer(hb: HarmonicBuilt):
         rings.append((line, _positions(spec.count, spec.angle_offset), one, k_out))
     n1 = hb.model.n1
     harmonics = np.array(hb.harmonics)
+
+    def each_pile(u, states) -> list:
+        """Per ring: every pile's angle (the full circle) and axial compression ``(e,)``."""
+        U = np.asarray(u).reshape(-1, n1)
+        out = []
+        for line, _, one, _ in rings:
+            spec = specs[line.name]
+            th = np.radians(spec.angle_offset) + 2 * np.pi * np.arange(int(spec.count)) \
+                / spec.count
+            c = np.cos(np.outer(th, harmonics))
+            tr = np.einsum("ph,hmk->pmk", c, U[:, line.trans[:, :2]])
+            psi = np.einsum("ph,hm->pm", c, U[:, line.rot[:, 0]])
+            node = np.concatenate([tr, psi[..., None]], axis=-1)
+            u_in = np.concatenate([node[:, :-1], node[:, 1:]], axis=-1)
+            f_in = np.einsum("eij,ejk,pek->pei", one.k_local, one.T, u_in)
+            out.append((th, -f_in[..., 3]))
+        return out
+
+    specs = {line.name: spec for line, spec in zip(
+        hb.hf.rings, [r for r in design.piles.rings if r.radius > 0], strict=True)}
+    if per_pile:
+        return each_pile
 
     def observe(u, states) -> dict:
         U = np.asarray(u).reshape(-1, n1)  # (h, n1)

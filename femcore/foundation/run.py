@@ -95,6 +95,7 @@ class Result:
     built: BuiltModel | None = field(default=None, repr=False)
     pushover: StepResult | None = field(default=None, repr=False)
     design: Design | None = field(default=None, repr=False)
+    harmonic: object | None = field(default=None, repr=False)  # the HarmonicBuilt model
 
     def __post_init__(self) -> None:
         if self.design is None and self.built is not None:
@@ -578,6 +579,7 @@ def run_harmonic(design: Design, dynamic: bool = True,
         timings["design_strength_s"] = strength["seconds"]
         timings["postprocess_s"] -= strength["seconds"]
     out = Result(status, message, curve, kp, req, ring_envelopes(hb, res), info, timings,
-                 design.name, dyn, stage_rows, elastic=el, pushover=res, design=design)
+                 design.name, dyn, stage_rows, elastic=el, pushover=res, design=design,
+                 harmonic=hb)
     out.design_strength = None if strength is None else strength["record"]
     return out

@@ -205,7 +205,12 @@ def _print_summary(result, out: Path, t_total: float) -> None:
 def _cmd_run(args: argparse.Namespace) -> int:
     from femcore.foundation.run import prepare, run_built, run_harmonic
     from femcore.workflows.report import write_report
-    from femcore.workflows.results import write_curve_csv, write_fields, write_result_json
+    from femcore.workflows.results import (
+        write_curve_csv,
+        write_fields,
+        write_harmonic_fields,
+        write_result_json,
+    )
 
     t0 = time.perf_counter()
     design = _load(args.design, args.element, args.mesh)
@@ -254,7 +259,10 @@ def _cmd_run(args: argparse.Namespace) -> int:
     t_analysis = time.perf_counter() - t0
     if result.curve:
         write_curve_csv(result, out / "curve.csv")
-    write_fields(result, out / "fields.vtu")
+    if harmonic:
+        write_harmonic_fields(result, out / "fields.vtu")
+    else:
+        write_fields(result, out / "fields.vtu")
     write_report(result, out)
     t_total = time.perf_counter() - t0
     result.timings["outputs_s"] = t_total - t_analysis

@@ -100,6 +100,79 @@ def write_fields(result: Result, path: Path) -> Path | None:
     return path
 
 
+def write_harmonic_fields(result: Result, path: Path) -> Path | None:
+    """The harmonic solution at the end of the pushover on its circumferential planes, in
+    3D: every plane theta_k of [0, pi] and its mirror -theta_k (the model is symmetric about
+    theta = 0) as a sheet of triangles at (r cos theta, r sin theta, z), with the
+    displacement (harmonic sums; Cartesian x, y, z) and, per cell, the yielded fraction of
+    its points on that plane; the piles of every ring as lines at their own angles with the
+    axial force (kN, compression positive)."""
+    import meshio
+
+    from femcore.harmonic_plastic import HarmonicMohrCoulomb
+
+    hb = result.harmonic
+    if hb is None or result.pushover is None or not result.pushover.records:
+        return None
+    mesh = hb.hf.model.mesh
+    n1, nn = hb.model.n1, mesh.n_nodes
+    U = np.asarray(result.pushover.u).reshape(-1, n1)  # (h, n1)
+    harm = np.array(hb.harmonics)
+    theta = hb.planes.theta
+    yielded = np.zeros((theta.size, mesh.n_cells))
+    for blk, st in zip(hb.model.blocks, result.pushover.states, strict=True):
+        if isinstance(blk, HarmonicMohrCoulomb):
+            cells = np.asarray(hb.hf.model.blocks[[i for i, b in hb.model.nonlinear.items()
+                                                   if b is blk][0]].cells)
+            yielded[:, cells] = st.yielded.mean(axis=2)
+    sub = mesh.element.sub_triangles
+    tris = mesh.cells[:, sub].reshape(-1, 3)
+    ns = sub.shape[0]
+    amp = U[:, : 3 * nn].reshape(len(harm), nn, 3)  # (h, nodes, 3) U, W, V
+    pts, disp, blocks, yf, axial = [], [], [], [], []
+    offset = 0
+
+    def sheet(th: float, k: int) -> None:
+        nonlocal offset
+        c, s_ = np.cos(harm * th), np.sin(harm * th)
+        Ur, Wz, Vt = c @ amp[..., 0], c @ amp[..., 1], s_ @ amp[..., 2]
+        r, z = mesh.points[:, 0], mesh.points[:, 1]
+        pts.append(np.column_stack([r * np.cos(th), r * np.sin(th), z]))
+        disp.append(np.column_stack([Ur * np.cos(th) - Vt * np.sin(th),
+                                     Ur * np.sin(th) + Vt * np.cos(th), Wz]))
+        blocks.append(("triangle", tris + offset))
+        yf.append(np.repeat(yielded[k], ns))
+        axial.append(np.full(len(tris), np.nan))
+        offset += nn
+
+    for k, th in enumerate(theta):
+        sheet(float(th), k)
+        if 0.0 < th < np.pi:
+            sheet(float(-th), k)
+    from femcore.foundation.harmonic_pushover import ring_observer
+
+    forces = ring_observer(hb, per_pile=True)(result.pushover.u, result.pushover.states)
+    for line, (angles, comp) in zip(hb.hf.rings, forces, strict=True):
+        for th, cp in zip(angles, comp, strict=True):
+            c, s_ = np.cos(harm * th), np.sin(harm * th)
+            Ur, Wz = c @ U[:, line.trans[:, 0]], c @ U[:, line.trans[:, 1]]
+            Vt = s_ @ U[:, line.trans[:, 2]]
+            r, z = line.xy[:, 0], line.xy[:, 1]
+            m = len(r)
+            pts.append(np.column_stack([r * np.cos(th), r * np.sin(th), z]))
+            disp.append(np.column_stack([Ur * np.cos(th) - Vt * np.sin(th),
+                                         Ur * np.sin(th) + Vt * np.cos(th), Wz]))
+            blocks.append(("line", offset + np.column_stack([np.arange(m - 1),
+                                                            np.arange(1, m)])))
+            yf.append(np.full(m - 1, np.nan))
+            axial.append(cp)
+            offset += m
+    out = meshio.Mesh(np.vstack(pts), blocks, point_data={"displacement": np.vstack(disp)},
+                      cell_data={"yielded_fraction": yf, "axial_force": axial})
+    meshio.write(path, out)
+    return path
+
+
 def result_file_model():
     """A pydantic model of result.json (for validation and its JSON Schema)."""
     from typing import Literal
