@@ -42,19 +42,19 @@ from ..harmonic import HarmonicConstraints, HarmonicError, HarmonicModel, prescr
 from ..harmonic_coupled import PlaneContact
 from ..harmonic_planes import CircumferentialPlanes, min_planes
 from ..harmonic_rings import RingLine, RingSpringBlock, add_ring, ring_support, tie_head_to_solid
-from ..linsolve import factorize
 from ..interfaces import contact_pairs
 from ..kinematics import Kinematics
+from ..linsolve import factorize
 from .build import (
     BuiltModel,
-    _split_underside,
-    cap_contact_law,
     _cap_polygon,
     _pile_section,
     _row_line,
     _soil_material,
     _SoilAtDepth,
+    _split_underside,
     backfill_lines,
+    cap_contact_law,
     domain_mesh,
     free_cap,
     freed_soil_edges,
@@ -165,8 +165,9 @@ def build_harmonic(design: Design, near_field: bool = True,
     ties when both are off); both for measuring what they change. ``n_max``: the highest
     harmonic the model may solve. ``contact`` True gives a frictional cap its own underside
     nodes joined to the soil by a :class:`~femcore.harmonic_coupled.PlaneContact` (closed
-    and sticking in the elastic model; the harmonic pushover lets it open and slide). ``meta["springs"]`` keeps, per ring, what the nonlinear
-    springs of the harmonic pushover need (block indices, nodes, tributary lengths).
+    and sticking in the elastic model; the harmonic pushover lets it open and slide).
+    ``meta["springs"]`` keeps, per ring, what the nonlinear springs of the harmonic pushover
+    need (block indices, nodes, tributary lengths).
     """
     problems = check_harmonic_layout(design)
     if problems:
