@@ -53,7 +53,7 @@ class StepSettings:
     drop_fraction: float | None = None  # stop when |force| < (1 - drop) * peak
     backend: str = "superlu"
     reuse_factorization: bool = False  # modified-Newton first step with the last tangent
-    keep_factorization: float | None = None  # modified Newton while the residual falls by it
+    broyden: int = 0  # Broyden updates of a factorization before a new one (newton())
 
     def __post_init__(self) -> None:
         if not 0 < self.min_step <= self.initial_step <= self.max_step <= 1:
@@ -248,7 +248,7 @@ class Stepper:
             try:
                 res = newton(callback_fn, guess, rtol=cfg.rtol, max_iter=cfg.max_iterations,
                              backend=cfg.backend, reuse=reuse, line_search=failed_here > 0,
-                             keep=cfg.keep_factorization)
+                             broyden=cfg.broyden)
             except ConvergenceError as exc:
                 cutbacks += 1
                 failed_here += 1

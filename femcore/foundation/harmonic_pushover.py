@@ -69,14 +69,13 @@ __all__ = ["HarmonicBuilt", "build_coupled", "harmonic_stages", "default_planes"
 SOLVER = "direct"
 
 
-#: modified Newton in the harmonic stages: a factorization of the coupled tangent is kept
-#: while every iteration lowers the residual at least by this factor (a factorization
-#: costs many residual evaluations here; docs/harmonic.md)
-KEEP_FACTORIZATION = 0.7
+#: Broyden updates of a coupled factorization before a new one (quasi-Newton: a
+#: factorization of the coupled tangent costs many residual evaluations; docs/harmonic.md)
+BROYDEN = 12
 
 
-def _keeping(settings: StepSettings) -> StepSettings:
-    return replace(settings, keep_factorization=KEEP_FACTORIZATION)
+def _quasi(settings: StepSettings) -> StepSettings:
+    return replace(settings, broyden=BROYDEN)
 
 
 def default_planes(n_max: int) -> int:
@@ -318,7 +317,7 @@ def weight_loads(hb: HarmonicBuilt) -> NDArray[np.float64]:
 # --------------------------------------------------------------------------- stages
 def _ramp(hb: HarmonicBuilt, state: StageState, f_end, settings: StepSettings):
     return Stepper(hb.model, hb.free_map, state.f_ext, [], [], f_ext_end=f_end,
-                   settings=_keeping(settings), residual_factory=hb.residual()).run(
+                   settings=_quasi(settings), residual_factory=hb.residual()).run(
         u0=state.u, states0=state.states)
 
 
@@ -413,7 +412,7 @@ class Push:
                     b.residual_tangent = SPRING_RESIDUAL_TANGENT
         try:
             res = Stepper(hb.model, cmap, state.f_ext, [TH], [target], monitor_dofs=[U, W, TH],
-                          settings=_keeping(self.settings or pushover_steps(
+                          settings=_quasi(self.settings or pushover_steps(
                               lo.initial_increment / target)),
                           observer=ring_observer(hb),
                           stop_when=stop if lo.stop_at_plateau else None, grid=grid,
