@@ -199,11 +199,12 @@ class PlaneSprings:
 @dataclass
 class ContactPlaneState:
     """Per plane and node pair: relative displacement (radial shear, opening, hoop shear)
-    ``(m, s, 3)``, the slip of both shear directions ``(m, s, 2)``, the tractions ``(m, s,
-    3)`` and whether the pair is open / slipping ``(m, s)``."""
+    ``(m, s, 3)``, its plastic part (slip of both shear directions and the opening of an open
+    pair) ``(m, s, 3)``, the tractions on the cap ``(m, s, 3)`` and whether the pair is open
+    / slipping ``(m, s)``."""
 
     d: NDArray[np.float64]
-    slip: NDArray[np.float64]
+    d_p: NDArray[np.float64]
     traction: NDArray[np.float64]
     open: NDArray[np.bool_]
     sliding: NDArray[np.bool_]
@@ -211,16 +212,20 @@ class ContactPlaneState:
 
 @dataclass(eq=False)
 class PlaneContact:
-    """A no-tension Coulomb contact (lift-off, sliding) between node pairs on the planes.
+    """A no-tension Coulomb contact (lift-off, sliding) between node pairs on the planes: the
+    law of the slice's cap contact (:func:`materials.springs.coulomb_update`, tension
+    cut-off 0) with the two shear directions together.
 
     Pair p joins ``soil (s, 3)`` to ``cap (s, 3)`` harmonic DOFs (U, W, V); ``tangent`` and
     ``normal`` ``(s, 2)`` in the (r, z) plane, the normal pointing from the soil to the cap;
     ``area (s,)`` the nodal area per radian (m^2/rad). On plane theta the relative motion
     cap - soil is (radial shear, opening, hoop shear) = ``sum_n diag(cos, cos, sin)(n theta)
-    d_n``. Closed (opening <= 0): pressure ``k_n`` times the overlap, shear ``k_s`` times
-    the elastic shear, bounded by ``cohesion + tan_delta * pressure`` with a radial return
-    on both shear directions together; open: no traction (the slip follows). Tractions
-    times the area per radian are projected back with the plane weights.
+    d_n``. Trial ``sigma = k_n (opening - opening_p)`` (tension positive) and
+    ``tau = k_s (shear - slip)``; ``sigma > 0``: open (no traction, the plastic opening
+    follows); else the shear is bounded by ``min(c - sigma tan_delta, -sigma)`` (the 45
+    degree ramp of the slice's law: the strength vanishes continuously at lift-off), with a
+    radial return on both shear directions. Tractions times the area per radian are
+    projected back with the plane weights.
     """
 
     name: str
@@ -260,7 +265,7 @@ class PlaneContact:
         m, s = self.planes.n_planes, self.area.size
         z = np.zeros((m, s, 3))
         f = np.zeros((m, s), dtype=bool)
-        return ContactPlaneState(z, np.zeros((m, s, 2)), z.copy(), f, f.copy())
+        return ContactPlaneState(z, z.copy(), z.copy(), f, f.copy())
 
     def evaluate(self, u_e: NDArray[np.float64], state: ContactPlaneState,
                  tangent: bool = True):
@@ -268,20 +273,28 @@ class PlaneContact:
         d_amp = np.einsum("ski,hsi->hsk", self._B, u_e)  # (h, s, 3)
         d = np.einsum("mhk,hsk->msk", self._S, d_amp)  # (m, s, 3)
         kn, ks = self.k_n[None, :], self.k_s[None, :]
-        gap = d[..., 1]
-        is_open = gap > 0.0
-        p = np.where(is_open, 0.0, -kn * gap)  # pressure >= 0
+        sig_t = kn * (d[..., 1] - state.d_p[..., 1])  # tension positive
+        is_open = sig_t > 0.0
+        sig = np.where(is_open, 0.0, sig_t)
         shear = d[..., [0, 2]]
-        tau_t = ks[..., None] * (shear - state.slip)  # (m, s, 2)
+        tau_t = ks[..., None] * (shear - state.d_p[..., [0, 2]])  # (m, s, 2)
         size = np.hypot(tau_t[..., 0], tau_t[..., 1])
-        limit = self.cohesion[None, :] + self.tan_delta[None, :] * p
+        coulomb = self.cohesion[None, :] - sig * self.tan_delta[None, :]
+        ramp = -sig
+        on_ramp = ramp < coulomb
+        limit = np.where(is_open, 0.0, np.maximum(np.where(on_ramp, ramp, coulomb), 0.0))
+        slope = np.where(on_ramp, 1.0, self.tan_delta[None, :])
         sliding = ~is_open & (size > limit)
         ratio = np.where(sliding, limit / np.maximum(size, 1e-300), 1.0)
         tau = np.where(is_open[..., None], 0.0, tau_t * ratio[..., None])
-        slip = np.where(is_open[..., None], shear,
-                        np.where(sliding[..., None], shear - tau / ks[..., None], state.slip))
-        trac = np.stack([tau[..., 0], -p, tau[..., 1]], axis=-1)  # (m, s, 3) on the cap
-        new = ContactPlaneState(d, slip, trac, is_open, sliding)
+        d_p = state.d_p.copy()
+        safe_ks = np.where(ks > 0, ks, 1.0)[..., None]
+        slipped = np.where(is_open[..., None], shear, shear - tau / safe_ks)
+        d_p[..., [0, 2]] = np.where((is_open | sliding)[..., None], slipped,
+                                    state.d_p[..., [0, 2]])
+        d_p[..., 1] = np.where(is_open, d[..., 1], state.d_p[..., 1])
+        trac = np.stack([tau[..., 0], sig, tau[..., 1]], axis=-1)  # (m, s, 3) on the cap
+        new = ContactPlaneState(d, d_p, trac, is_open, sliding)
         F = np.einsum("mhk,msk->hsk", self._wS, trac) * self.area[None, :, None]  # (h, s, 3)
         f_e = np.einsum("ski,hsk->hsi", self._B, F)
         if not tangent:
@@ -297,7 +310,7 @@ class PlaneContact:
         C[..., 0, 0], C[..., 0, 2] = Css[..., 0, 0], Css[..., 0, 1]
         C[..., 2, 0], C[..., 2, 2] = Css[..., 1, 0], Css[..., 1, 1]
         C[..., 1, 1] = np.where(is_open, rt * kn, kn)
-        coup = np.where(sliding, -self.tan_delta[None, :] * kn, 0.0)  # d tau / d opening
+        coup = np.where(sliding, -slope * kn, 0.0)  # d tau / d opening
         C[..., 0, 1] = coup * e[..., 0]
         C[..., 2, 1] = coup * e[..., 1]
         Kc = np.einsum("mhk,mskl,mgl->hgskl", self._wS, C, self._S) \

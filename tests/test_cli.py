@@ -252,7 +252,7 @@ def test_harmonic_run_end_to_end(tmp_path, capsys):
     out = tmp_path / "out"
     assert cli.main(["run", str(path), "--out", str(out)]) == 0
     printed = capsys.readouterr().out
-    assert "harmonics 0-2 on 7 planes" in printed and "Caution" in printed
+    assert "harmonics 0-2 on 5 planes" in printed and "Caution" in printed
     res = json.loads((out / "result.json").read_text())
     result_file_model().model_validate(res)
     ref = harmonic_stiffness(load_design(path))

@@ -155,7 +155,7 @@ def test_demo_harmonic_run_reports_like_the_slice(demo_harmonic):
     assert len(r.piles) == 2
     for p in r.piles:
         assert p.max_compression > 0 and p.max_tension > 0
-    assert r.model["harmonics"] == 2 and r.model["planes"] == 7
+    assert r.model["harmonics"] == 2 and r.model["planes"] == 5
 
 
 def test_too_few_planes_exit_2_naming_the_field(tmp_path, capsys):

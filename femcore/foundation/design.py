@@ -148,7 +148,7 @@ class AnalysisSettings(_Model):
     planes: int | None = Field(
         None, ge=3, le=200, description="circumferential planes over [0, pi] on which the "
         "harmonic pushover evaluates plasticity (theta = 0 and pi included); at least "
-        "harmonics + 2; default 2 harmonics + 3")
+        "harmonics + 2; default 2 harmonics + 1")
     element: Literal["T6", "T15"] = Field(
         "T15", description="soil triangles: T15 = 15-node quartic (default: accurate undrained "
         "collapse loads in plane strain and axisymmetry, where low-order triangles lock; Sloan "

@@ -79,8 +79,9 @@ def _quasi(settings: StepSettings) -> StepSettings:
 
 
 def default_planes(n_max: int) -> int:
-    """Planes over [0, pi] for harmonics up to ``n_max`` when the design gives none."""
-    return 2 * int(n_max) + 3
+    """Planes over [0, pi] for harmonics up to ``n_max`` when the design gives none: 2N + 1
+    (on the demo, N = 4: the ultimate moment within 0.3 % of 33 planes; docs/harmonic.md)."""
+    return 2 * int(n_max) + 1
 
 
 @dataclass(eq=False)
