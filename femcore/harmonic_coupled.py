@@ -360,8 +360,9 @@ class CoupledModel:
         return np.asarray(u).reshape(self.h, self.n1)
 
     def evaluate(self, u: NDArray[np.float64], states: list, tangent: bool = True):
-        """Internal force ``(n_dofs,)``, the :class:`CoupledTangent` (None when ``tangent``
-        is False) and the trial states at the coupled amplitudes ``u``."""
+        """Internal force ``(n_dofs,)``, a function building the :class:`CoupledTangent`
+        (None when ``tangent`` is False) and the trial states at the coupled amplitudes
+        ``u``."""
         t0 = time.perf_counter()
         U = self.split(u)
         F = np.stack([K @ U[a] for a, K in enumerate(self._K_lin)])  # (h, n1)
@@ -378,7 +379,15 @@ class CoupledModel:
         SOLVER_STATS["material_s"] += time.perf_counter() - t0
         if not tangent:
             return F.reshape(-1), None, trial
-        return F.reshape(-1), CoupledTangent(self, parts), trial
+
+        def make() -> CoupledTangent:
+            t = time.perf_counter()
+            out = CoupledTangent(self, [(i, tan() if callable(tan) else tan)
+                                        for i, tan in parts])
+            SOLVER_STATS["material_s"] += time.perf_counter() - t
+            return out
+
+        return F.reshape(-1), make, trial
 
 
 class CoupledTangent:
@@ -599,11 +608,12 @@ def coupled_residual(model: CoupledModel, solver: str = "krylov",
             scale = max(f_ext_red, float(np.linalg.norm(generalized[cmap.fixed])))
 
             def make():
+                tan = tangent()
                 if solver == "direct":
-                    return _DirectSolve(tangent, cmap)
+                    return _DirectSolve(tan, cmap)
                 if solver == "lagged":
-                    return _LaggedSolve(tangent, cmap, cache, lagged)
-                return _KrylovSolve(tangent, cmap, cache, settings)
+                    return _LaggedSolve(tan, cmap, cache, lagged)
+                return _KrylovSolve(tan, cmap, cache, settings)
 
             return cmap.reduce_vector(r_full), make, scale, (u, trial, generalized)
 

@@ -106,8 +106,9 @@ class HarmonicMohrCoulomb:
 
     def evaluate(self, u_e: NDArray[np.float64], state: PlaneState, tangent: bool = True):
         """Element forces ``(h, c, i)`` for element amplitudes ``u_e (h, c, i)`` from the
-        converged ``state``, the tangent as ``(diagonal (h, c, i, i), plastic cells (p,),
-        their full blocks (h, h, p, i, i))`` (None when ``tangent`` is False) and the new
+        converged ``state``, the tangent as a function returning ``(diagonal (h, c, i, i),
+        plastic cells (p,), their full blocks (h, h, p, i, i))`` (built only when called:
+        quasi-Newton iterations need no tangent; None when ``tangent`` is False) and the new
         :class:`PlaneState`. Cells without a yielded point keep the block-diagonal elastic
         tangent; only the others are integrated again and couple the harmonics."""
         pl = self.planes
@@ -133,20 +134,23 @@ class HarmonicMohrCoulomb:
         new = PlaneState(stress, eps, yielded)
         if not tangent:
             return f, None, new
-        plastic = np.flatnonzero(yielded.any(axis=(0, 2)))  # (p,)
-        diag = self.elastic_blocks().copy()  # (h, c, i, i)
-        if plastic.size:
+
+        def blocks():
+            plastic = np.flatnonzero(yielded.any(axis=(0, 2)))  # (p,)
+            diag = self.elastic_blocks().copy()  # (h, c, i, i)
+            h = len(pl.harmonics)
+            if not plastic.size:
+                return diag, plastic, np.zeros((h, h, 0, *diag.shape[2:]))
             Cc = np.broadcast_to(D[plastic], (m, *D[plastic].shape)).copy()  # (m, p, q, 6, 6)
             k, cell, qq = np.nonzero(yielded)  # the order of np.flatnonzero(yielded)
             pos = np.full(shape[1], -1)
             pos[plastic] = np.arange(plastic.size)
             Cc[k, pos[cell], qq] = C_p
             Kp = self._coupled_blocks(Cc, plastic)
-            h = len(pl.harmonics)
             diag[:, plastic] = Kp[np.arange(h), np.arange(h)]
-        else:
-            Kp = np.zeros((len(pl.harmonics), len(pl.harmonics), 0, *diag.shape[2:]))
-        return f, (diag, plastic, Kp), new
+            return diag, plastic, Kp
+
+        return f, blocks, new
 
     def _coupled_blocks(self, C: NDArray[np.float64], cells: NDArray[np.int64]):
         """``B_n^T D_nm B_m dV`` of ``cells`` from plane tangents ``C (m, p, q, 6, 6)``,
@@ -169,7 +173,8 @@ class HarmonicMohrCoulomb:
         """Internal forces ``(h, c, i)``, tangent blocks ``(h, h, c, i, i)`` of every cell and
         the new :class:`PlaneState` for total amplitudes ``u (h, n_dofs)`` from the
         converged ``state``."""
-        f, (diag, plastic, Kp), new = self.evaluate(u[:, self.element_dofs], state)
+        f, blocks, new = self.evaluate(u[:, self.element_dofs], state)
+        diag, plastic, Kp = blocks()
         h = diag.shape[0]
         Kb = np.zeros((h, h, *diag.shape[1:]))
         Kb[np.arange(h), np.arange(h)] = diag

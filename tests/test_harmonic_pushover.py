@@ -206,3 +206,39 @@ def test_plane_contact_tangent_matches_finite_differences():
             fm = ct.evaluate((u - du)[:, ed], st, tangent=False)[0]
             assert np.allclose((fp - fm) / (2 * eps), K[:, a, :, :, j], rtol=1e-4,
                                atol=1e-5 * np.abs(K).max())
+
+
+def test_harmonic_fields_follow_the_rigid_cap(demo_harmonic, tmp_path):
+    """fields.vtu of a harmonic run: one sheet per plane and mirror plane, and on every
+    sheet the pedestal-top nodes move as the rigid tower base (rigid-body kinematics in 3D:
+    u_x = Delta + alpha (z - z_ref), u_y = 0, u_z = W - alpha x, to 1e-9 of the largest
+    displacement); every pile a line with its axial force."""
+    import meshio
+
+    from femcore.workflows.results import write_harmonic_fields
+
+    r = demo_harmonic
+    path = write_harmonic_fields(r, tmp_path / "fields.vtu")
+    m = meshio.read(path)
+    hb = r.harmonic
+    n_nodes = hb.hf.model.mesh.n_nodes
+    sheets = 2 * hb.planes.n_planes - 2
+    n_piles = sum(int(ring.count) for ring in hb.design.piles.rings if ring.radius > 0)
+    assert m.points.shape[0] == sheets * n_nodes + sum(
+        int(ring.count) * len(line.xy) for ring, line in zip(
+            [x for x in hb.design.piles.rings if x.radius > 0], hb.hf.rings, strict=True))
+    u = r.pushover.u
+    delta, alpha = u[hb.ref_dof(1, 0)], u[hb.ref_dof(1, 2)]
+    w0 = u[hb.ref_dof(0, 1)]
+    z_ref = hb.hf.model.dofmap.ref_points[hb.ref]
+    top = hb.hf.top_nodes
+    disp = m.point_data["displacement"]
+    scale = np.abs(disp).max()
+    for k in range(sheets):
+        P, D = m.points[k * n_nodes + top], disp[k * n_nodes + top]
+        expect = np.column_stack([delta + alpha * (P[:, 2] - z_ref), np.zeros(len(P)),
+                                  w0 - alpha * P[:, 0]])
+        assert np.abs(D - expect).max() < 1e-9 * scale
+    axial = np.concatenate([c for c, cell in zip(m.cell_data["axial_force"], m.cells,
+                                                 strict=True) if cell.type == "line"])
+    assert np.isfinite(axial).all() and axial.size > n_piles
