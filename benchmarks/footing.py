@@ -173,7 +173,7 @@ class HarmonicFooting:
     depth_factor: float = 2.0
     target: float = 0.05  # settlement / B, rotation in rad, or sliding / B
     cutoff: float | None = None
-    solver: str = "krylov"
+    solver: str = "direct"
     settings: StepSettings = field(default_factory=lambda: StepSettings(initial_step=0.02,
                                                                         max_step=0.1))
 

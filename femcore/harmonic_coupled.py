@@ -83,6 +83,27 @@ def combine_maps(parts: Sequence[ConstraintMap]) -> CombinedMap:
 
 
 # --------------------------------------------------------------------------- springs
+def _plane_family(planes: CircumferentialPlanes, scale: float = 1.0):
+    """``S (m, h, 3)`` = diag(cos, cos, sin)(n theta_k) of (in-plane, in-plane, hoop)
+    directions and ``wS`` = the plane weights times ``scale`` times S."""
+    c, s_ = planes.T[..., 0], planes.T[..., 4]  # (m, h): cos(n theta), sin(n theta)
+    S = np.stack([c, c, s_], axis=-1)
+    return S, (planes.w * scale)[:, None, None] * S
+
+
+def _plane_blocks(wS, S, C, B, changed):
+    """Element tangent of a block of point laws on the planes: plane tangents ``C (m, s, 3,
+    3)`` in local directions ``d = B u_e`` (``B (s, 3, i)`` or ``(3, i)``) projected to the
+    harmonics, as ``(diagonal (h, s, i, i), changed points (p,), their blocks (h, h, p, i,
+    i))``."""
+    Kc = np.einsum("mhk,mskl,mgl->hgskl", wS, C, S)  # (h, h, s, 3, 3)
+    B = np.broadcast_to(B, (Kc.shape[2], *B.shape[-2:]))
+    Ke = np.einsum("ski,hgskl,slj->hgsij", B, Kc, B)  # (h, h, s, i, i)
+    plastic = np.flatnonzero(changed)
+    h = Ke.shape[0]
+    return Ke[np.arange(h), np.arange(h)], plastic, Ke[:, :, plastic]
+
+
 @dataclass
 class SpringPlaneState:
     """Per plane and spring node ``(m, s, 3)``: relative displacement, slip and force (one
@@ -133,10 +154,7 @@ class PlaneSprings:
         else:
             self.element_dofs = np.concatenate([self.beam, self.soil], axis=1)  # (s, 6)
             self._B = np.concatenate([dirs, -dirs], axis=1)  # (3, 6)
-        pl = self.planes
-        c, s_ = pl.T[..., 0], pl.T[..., 4]  # (m, h): cos(n theta), sin(n theta)
-        self._S = np.stack([c, c, s_], axis=-1)  # (m, h, 3)
-        self._wS = (pl.w * self.count / (2.0 * np.pi))[:, None, None] * self._S
+        self._S, self._wS = _plane_family(self.planes, self.count / (2.0 * np.pi))
 
     @property
     def n_springs(self) -> int:
@@ -184,16 +202,7 @@ class PlaneSprings:
                       (ratio[..., None, None] * (eye - n[..., :, None] * n[..., None, :])
                        + rt * eye), eye) * kl[..., None, None]
         C[..., 1:, 1:] = Cl
-        Kc = np.einsum("mhk,mskl,mgl->hgskl", self._wS, C, self._S)  # (h, h, s, 3, 3)
-        Ke = np.einsum("ki,hgskl,lj->hgsij", self._B, Kc, self._B)  # (h, h, s, i, i)
-        plastic = np.flatnonzero(at_limit.any(axis=0))
-        h = Ke.shape[0]
-        diag = Ke[np.arange(h), np.arange(h)]  # (h, s, i, i)
-        return f_e, (diag, plastic, Ke[:, :, plastic]), new
-
-    def pile_forces(self, state: SpringPlaneState) -> NDArray[np.float64]:
-        """Forces of one pile's springs on every plane ``(m, s, 3)`` (kN)."""
-        return state.f
+        return f_e, _plane_blocks(self._wS, self._S, C, self._B, at_limit.any(axis=0)), new
 
 
 @dataclass
@@ -248,10 +257,7 @@ class PlaneContact:
         R[:, 0, :2], R[:, 1, :2], R[:, 2, 2] = self.tangent, self.normal, 1.0
         self._B = np.concatenate([R, -R], axis=2)  # (s, 3, 6): d = u_cap - u_soil
         self.element_dofs = np.concatenate([self.cap, self.soil], axis=1)  # (s, 6)
-        pl = self.planes
-        c, sn = pl.T[..., 0], pl.T[..., 4]
-        self._S = np.stack([c, c, sn], axis=-1)  # (m, h, 3)
-        self._wS = pl.w[:, None, None] * self._S
+        self._S, self._wS = _plane_family(self.planes)
 
     def stiffness(self, n: int) -> NDArray[np.float64]:
         """Closed, sticking contact: the element stiffness of harmonic n (c_n included)."""
@@ -313,13 +319,9 @@ class PlaneContact:
         coup = np.where(sliding, -slope * kn, 0.0)  # d tau / d opening
         C[..., 0, 1] = coup * e[..., 0]
         C[..., 2, 1] = coup * e[..., 1]
-        Kc = np.einsum("mhk,mskl,mgl->hgskl", self._wS, C, self._S) \
-            * self.area[None, None, :, None, None]
-        Ke = np.einsum("ski,hgskl,slj->hgsij", self._B, Kc, self._B)  # (h, h, s, 6, 6)
-        changed = (is_open | sliding).any(axis=0)
-        plastic = np.flatnonzero(changed)
-        h = Ke.shape[0]
-        return f_e, (Ke[np.arange(h), np.arange(h)], plastic, Ke[:, :, plastic]), new
+        C *= self.area[None, :, None, None]
+        return f_e, _plane_blocks(self._wS, self._S, C, self._B,
+                                  (is_open | sliding).any(axis=0)), new
 
 
 # --------------------------------------------------------------------------- model
@@ -424,6 +426,13 @@ class CoupledTangent:
                 out[a] += np.bincount(ed.ravel(), weights=y[a].ravel(), minlength=m.n1)
         return out.reshape(-1)
 
+    def reduced(self, cmap: CombinedMap) -> sp.csc_matrix:
+        """The whole reduced coupled tangent ``T^T K T`` (CSC)."""
+        A = sp.block_diag(self.reduced_diagonal(cmap), format="csc")
+        if self.coupling:
+            A = (A + (cmap.TT @ self.coupling_matrix() @ cmap.T)).tocsc()
+        return A
+
     def coupling_matrix(self) -> sp.csr_matrix:
         m = self.model
         rows, cols, vals = [], [], []
@@ -521,11 +530,7 @@ class _DirectSolve:
 
     def __init__(self, tangent: CoupledTangent, cmap: CombinedMap) -> None:
         t = time.perf_counter()
-        A = sp.block_diag(tangent.reduced_diagonal(cmap), format="csc")
-        if tangent.coupling:
-            C = tangent.coupling_matrix()
-            A = (A + (cmap.TT @ C @ cmap.T)).tocsc()
-        self.lu = factorize(A)
+        self.lu = factorize(tangent.reduced(cmap))
         SOLVER_STATS["direct_factorizations"] += 1
         SOLVER_STATS["factor_s"] += time.perf_counter() - t
 
@@ -545,9 +550,7 @@ class _LaggedSolve:
 
     def __init__(self, tangent: CoupledTangent, cmap: CombinedMap, cache: dict,
                  settings: KrylovSettings) -> None:
-        A = sp.block_diag(tangent.reduced_diagonal(cmap), format="csc")
-        if tangent.coupling:
-            A = (A + (cmap.TT @ tangent.coupling_matrix() @ cmap.T)).tocsc()
+        A = tangent.reduced(cmap)
         self.A, self.cache, self.settings = A, cache, settings
         if cache.get("lu") is None or cache.get("refresh") or cache.get("cmap") is not cmap:
             t = time.perf_counter()

@@ -76,6 +76,37 @@ def test_pure_moment_on_a_bonded_circle():
     assert fine.collapse < coarse.collapse
 
 
+@pytest.mark.parametrize("solver", ["krylov", "lagged"])
+def test_iterative_solvers_give_the_direct_curve(solver):
+    """The Newton-Krylov variants (block-diagonal and lagged coupled preconditioners) solve
+    the same equations as the direct solve: the bonded circle's moment curve to 1e-6."""
+    kw = dict(su=SU, harmonics=2, control="rotation", target=0.02, h_near=0.1)
+    ref = run_harmonic_footing(HarmonicFooting(solver="direct", **kw))
+    other = run_harmonic_footing(HarmonicFooting(solver=solver, **kw))
+    assert np.allclose(other.load, ref.load, rtol=1e-6)
+
+
+def _assert_tangent_by_differences(block, u, state, eps, rtol, atol_factor):
+    """The block's tangent at ``u`` (harmonic-major amplitudes) against central differences
+    of its forces, column by column (element DOF j of every spring or pair at once: they
+    are distinct DOFs); returns the state of the evaluation."""
+    ed = block.element_dofs
+    f, (diag, changed, Kp), new = block.evaluate(u[:, ed], state)
+    h = u.shape[0]
+    K = np.zeros((h, h, *diag.shape[1:]))
+    K[np.arange(h), np.arange(h)] = diag
+    K[:, :, changed] = Kp
+    for a in range(h):
+        for j in range(ed.shape[1]):
+            du = np.zeros_like(u)
+            du[a, ed[:, j]] = eps
+            fp = block.evaluate((u + du)[:, ed], state, tangent=False)[0]
+            fm = block.evaluate((u - du)[:, ed], state, tangent=False)[0]
+            assert np.allclose((fp - fm) / (2 * eps), K[:, a, :, :, j], rtol=rtol,
+                               atol=atol_factor * np.abs(K).max())
+    return new
+
+
 def test_plane_springs_tangent_matches_finite_differences():
     """The tangent of the ring springs (axial t-z bounds, isotropic p-y radial return, on 9
     planes, harmonics 0..3) against central differences of the forces, with springs yielded
@@ -90,23 +121,8 @@ def test_plane_springs_tangent_matches_finite_differences():
                       np.full(s, 25.0), pl)
     n_dofs = 6 * s
     u = 1e-3 * rng.normal(size=(4, n_dofs))
-    st = sp.initial_state()
-    f, (diag, plastic, Kp), new = sp.evaluate(u[:, sp.element_dofs], st)
+    new = _assert_tangent_by_differences(sp, u, sp.initial_state(), 1e-8, 1e-5, 1e-5)
     assert 0 < new.at_limit.sum() < new.at_limit.size  # yielded on some planes only
-    h, ed = 4, sp.element_dofs
-    K = np.zeros((h, h, *diag.shape[1:]))
-    K[np.arange(h), np.arange(h)] = diag
-    K[:, :, plastic] = Kp
-    eps = 1e-8
-    for a in range(h):
-        for j in range(ed.shape[1]):
-            du = np.zeros_like(u)
-            du[a, ed[:, j]] = eps  # element j-th DOF of every spring (distinct DOFs)
-            fp = sp.evaluate((u + du)[:, ed], st, tangent=False)[0]
-            fm = sp.evaluate((u - du)[:, ed], st, tangent=False)[0]
-            fd = (fp - fm) / (2 * eps)  # (h, s, i)
-            an = K[:, a, :, :, j]  # (h, s, i)
-            assert np.allclose(fd, an, rtol=1e-5, atol=1e-5 * np.abs(K).max())
 
 
 def test_spring_forces_reduce_to_the_ring_factors_when_elastic():
@@ -190,22 +206,8 @@ def test_plane_contact_tangent_matches_finite_differences():
     u[1, cap[:, 1]] = 3e-3 * (1 + rng.random(s))  # rocking (n = 1): lift-off at theta = pi
     u[1, cap[:, 0]] = 1e-3 * rng.normal(size=s)  # shear: some pairs slide
     u[2] = 2e-4 * rng.normal(size=6 * s)
-    st = ct.initial_state()
-    f, (diag, changed, Kp), new = ct.evaluate(u[:, ct.element_dofs], st)
+    new = _assert_tangent_by_differences(ct, u, ct.initial_state(), 1e-9, 1e-4, 1e-5)
     assert new.open.any() and new.sliding.any() and (~new.open & ~new.sliding).any()
-    h, ed = 3, ct.element_dofs
-    K = np.zeros((h, h, *diag.shape[1:]))
-    K[np.arange(h), np.arange(h)] = diag
-    K[:, :, changed] = Kp
-    eps = 1e-9
-    for a in range(h):
-        for j in range(ed.shape[1]):
-            du = np.zeros_like(u)
-            du[a, ed[:, j]] = eps
-            fp = ct.evaluate((u + du)[:, ed], st, tangent=False)[0]
-            fm = ct.evaluate((u - du)[:, ed], st, tangent=False)[0]
-            assert np.allclose((fp - fm) / (2 * eps), K[:, a, :, :, j], rtol=1e-4,
-                               atol=1e-5 * np.abs(K).max())
 
 
 def test_harmonic_fields_follow_the_rigid_cap(demo_harmonic, tmp_path):

@@ -32,7 +32,6 @@ from materials import Tresca
 from ..beams import BeamBlock
 from ..harmonic import HarmonicError, HarmonicSolidBlock, harmonic_factor
 from ..harmonic_coupled import (
-    SOLVER_STATS,
     CombinedMap,
     CoupledModel,
     PlaneSprings,
@@ -243,11 +242,25 @@ def _body_force(block, bq: NDArray[np.float64], n1: int) -> NDArray[np.float64]:
                                             weights=f_e.reshape(-1), minlength=n1)
 
 
+def _stress_force(block, stress: NDArray[np.float64], n1: int) -> NDArray[np.float64]:
+    """n = 0 nodal forces of a stress field ``(c, q, 6)`` on a solid block (c_0 included)."""
+    f_e = block.geometry(0).internal_force(stress)
+    return harmonic_factor(0) * np.bincount(block.element_dofs.ravel(), weights=f_e.ravel(),
+                                            minlength=n1)
+
+
+def _k0(profile, x: NDArray[np.float64]) -> NDArray[np.float64]:
+    """The at-rest stress at points ``x (c, q, 2)`` as ``(c, q, 6)`` (rr, zz, tt, rz, 0, 0)."""
+    s4 = k0_stresses(profile, x)
+    s6 = np.zeros((*s4.shape[:-1], 6))
+    s6[..., :4] = s4
+    return s6
+
+
 def _edge_normals(mesh, edges) -> NDArray[np.float64]:
-    """Unit normals ``(e, 2)`` of straight edges (end to end), any orientation."""
-    d = mesh.points[edges[:, -1]] - mesh.points[edges[:, 0]]
-    if edges.shape[1] > 2:  # higher-order edges: first and last node are the ends
-        d = mesh.points[edges[:, 1]] - mesh.points[edges[:, 0]]
+    """Unit normals ``(e, 2)`` of straight edges, any orientation (nodes 0 and 1 of an edge
+    are its ends at every order)."""
+    d = mesh.points[edges[:, 1]] - mesh.points[edges[:, 0]]
     n = np.stack([-d[:, 1], d[:, 0]], axis=1)
     return n / np.linalg.norm(n, axis=1, keepdims=True)
 
@@ -275,9 +288,7 @@ def weight_loads(hb: HarmonicBuilt) -> NDArray[np.float64]:
         if np.any(u):
             sig = np.zeros((*depth.shape, 6))
             sig[..., :3] = u[..., None]
-            g = blk.geometry(0)
-            f += harmonic_factor(0) * np.bincount(
-                blk.element_dofs.ravel(), weights=g.internal_force(sig).ravel(), minlength=n1)
+            f += _stress_force(blk, sig, n1)
     cap = base.blocks[hb.hf.meta["cap_block"]]
     bq = np.zeros((*cap.ring.dV.shape, 3))
     bq[..., 1] = -design.cap.gamma
@@ -333,22 +344,13 @@ class AtRest:
         states = list(state.states)
         for k in hb.soil:
             blk = hb.model.blocks[k]
-            s4 = k0_stresses(hb.profile, blk.ring.x)  # (c, q, 4): rr, zz, tt, rz
-            s6 = np.zeros((*s4.shape[:-1], 6))
-            s6[..., :4] = s4
-            states[k] = blk.initial_state(s6)
-        linear_soil = [bi for bi, _ in hb.hf.meta["layer_blocks"]
-                       if bi not in hb.model.nonlinear]
+            states[k] = blk.initial_state(_k0(hb.profile, blk.ring.x))
         f0 = np.zeros(hb.model.n_dofs)
         n1 = hb.model.n1
-        for bi in linear_soil:  # elastic layers: the K0 stress as a constant internal force
-            blk = hb.hf.model.blocks[bi]
-            s4 = k0_stresses(hb.profile, blk.ring.x)
-            s6 = np.zeros((*s4.shape[:-1], 6))
-            s6[..., :4] = s4
-            f0[:n1] += harmonic_factor(0) * np.bincount(
-                blk.element_dofs.ravel(), weights=blk.geometry(0).internal_force(s6).ravel(),
-                minlength=n1)
+        for bi, _ in hb.hf.meta["layer_blocks"]:  # elastic layers: the K0 stress as a
+            if bi not in hb.model.nonlinear:  # constant internal force
+                blk = hb.hf.model.blocks[bi]
+                f0[:n1] += _stress_force(blk, _k0(hb.profile, blk.ring.x), n1)
         hb.model.initial_force = f0
         f_int, _, _ = hb.model.evaluate(state.u, states, tangent=False)
         return StageState(state.u, states, f_int), None
@@ -466,6 +468,15 @@ def ring_observer(hb: HarmonicBuilt, per_pile: bool = False):
     n1 = hb.model.n1
     harmonics = np.array(hb.harmonics)
 
+    def in_plane(U, line, one, th):
+        """End forces ``(p, e, 6)`` (local N, V, M) of one pile at the angles ``th``."""
+        c = np.cos(np.outer(th, harmonics))  # (p, h)
+        tr = np.einsum("ph,hmk->pmk", c, U[:, line.trans[:, :2]])  # (p, m, 2) U, W
+        psi = np.einsum("ph,hm->pm", c, U[:, line.rot[:, 0]])
+        node = np.concatenate([tr, psi[..., None]], axis=-1)  # (p, m, 3)
+        u_in = np.concatenate([node[:, :-1], node[:, 1:]], axis=-1)  # (p, e, 6)
+        return np.einsum("eij,ejk,pek->pei", one.k_local, one.T, u_in)
+
     def each_pile(u, states) -> list:
         """Per ring: every pile's angle (the full circle) and axial compression ``(e,)``."""
         U = np.asarray(u).reshape(-1, n1)
@@ -474,13 +485,7 @@ def ring_observer(hb: HarmonicBuilt, per_pile: bool = False):
             spec = specs[line.name]
             th = np.radians(spec.angle_offset) + 2 * np.pi * np.arange(int(spec.count)) \
                 / spec.count
-            c = np.cos(np.outer(th, harmonics))
-            tr = np.einsum("ph,hmk->pmk", c, U[:, line.trans[:, :2]])
-            psi = np.einsum("ph,hm->pm", c, U[:, line.rot[:, 0]])
-            node = np.concatenate([tr, psi[..., None]], axis=-1)
-            u_in = np.concatenate([node[:, :-1], node[:, 1:]], axis=-1)
-            f_in = np.einsum("eij,ejk,pek->pei", one.k_local, one.T, u_in)
-            out.append((th, -f_in[..., 3]))
+            out.append((th, -in_plane(U, line, one, th)[..., 3]))
         return out
 
     specs = {line.name: spec for line, spec in zip(
@@ -492,15 +497,10 @@ def ring_observer(hb: HarmonicBuilt, per_pile: bool = False):
         U = np.asarray(u).reshape(-1, n1)  # (h, n1)
         out = []
         for line, th, one, k_out in rings:
-            c = np.cos(np.outer(th, harmonics))  # (p, h)
-            s = np.sin(np.outer(th, harmonics))
-            tr = np.einsum("ph,hmk->pmk", c, U[:, line.trans[:, :2]])  # (p, m, 2) U, W
-            psi = np.einsum("ph,hm->pm", c, U[:, line.rot[:, 0]])
+            s = np.sin(np.outer(th, harmonics))  # (p, h)
             v = np.einsum("ph,hm->pm", s, U[:, line.trans[:, 2]])
             chi = np.einsum("ph,hm->pm", s, U[:, line.rot[:, 1]])
-            node = np.concatenate([tr, psi[..., None]], axis=-1)  # (p, m, 3)
-            u_in = np.concatenate([node[:, :-1], node[:, 1:]], axis=-1)  # (p, e, 6)
-            f_in = np.einsum("eij,ejk,pek->pei", one.k_local, one.T, u_in)
+            f_in = in_plane(U, line, one, th)
             m_in = np.stack([-f_in[..., 2], f_in[..., 5]], axis=-1)  # (p, e, 2) sagging +
             q_out = np.stack([v[:, :-1], chi[:, :-1], v[:, 1:], chi[:, 1:]], axis=-1)
             f_out = np.einsum("eij,pej->pei", k_out, q_out)
@@ -540,7 +540,3 @@ def ring_envelopes(hb: HarmonicBuilt, res) -> list[PileEnvelope]:
             np.min([s["moment_min"] for s in series], axis=0).tolist()))
     return out
 
-
-def solver_split() -> dict:
-    """Seconds in the return maps (material) and in the linear solves, and the counts."""
-    return dict(SOLVER_STATS)
