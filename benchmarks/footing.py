@@ -156,7 +156,11 @@ class HarmonicFooting:
     ``control``: ``"settlement"`` (n = 0), ``"rotation"`` (n = 1, no horizontal load) or
     ``"horizontal"`` (n = 1, no moment); ``rough`` False ties only the vertical motion;
     ``cutoff`` a tension cut-off of the soil (kPa; 0: no tension in the soil below the
-    footing), None for none."""
+    footing), None for none. ``contact``: the footing gets its own copies of the surface
+    nodes, joined to the soil by the no-tension Coulomb contact of the cap
+    (:class:`~femcore.harmonic_coupled.PlaneContact`, shear strength ``su`` while closed);
+    ``pressure`` (kPa): a mean vertical pressure applied first and held while the footing
+    is rotated or pushed."""
 
     su: float = 10.0
     E: float = 3000.0
@@ -174,6 +178,9 @@ class HarmonicFooting:
     target: float = 0.05  # settlement / B, rotation in rad, or sliding / B
     cutoff: float | None = None
     solver: str = "direct"
+    contact: bool = False
+    contact_stiffness: float = 1e5  # kPa/m
+    pressure: float = 0.0
     settings: StepSettings = field(default_factory=lambda: StepSettings(initial_step=0.02,
                                                                         max_step=0.1))
 
@@ -182,7 +189,9 @@ def run_harmonic_footing(f: HarmonicFooting) -> FootingResult:
     """The footing's load-displacement curve: mean pressure (kPa), horizontal force over the
     area (kPa) or the moment (kNm), against settlement, sliding (m) or rotation (rad)."""
     from femcore.harmonic import HarmonicModel
-    from femcore.harmonic_coupled import CoupledModel, combine_maps, coupled_residual
+    from femcore.harmonic_coupled import (CoupledModel, PlaneContact, combine_maps,
+                                          coupled_residual)
+    from femcore.kinematics import Kinematics
     from femcore.harmonic_planes import CircumferentialPlanes, min_planes
     from femcore.harmonic_plastic import HarmonicMohrCoulomb
 
@@ -190,10 +199,24 @@ def run_harmonic_footing(f: HarmonicFooting) -> FootingResult:
     mesh = layered_domain(f.width_factor * B, f.depth_factor * B, x_min=0.0,
                           footing=(0.0, B / 2), h=f.h_far * B, h_near=f.h_near * B,
                           refine_radius=B, element=f.element)
+    footing = mesh.nodes_of("footing")
+    if f.contact:
+        mesh, new_index = mesh.split_nodes(footing, np.zeros(0, np.int64))
+        pairs = contact_pairs(mesh, mesh.edge_sets["footing"], new_index, (0.0, 1.0),
+                              Kinematics.AXISYMMETRIC)
+        footing = new_index[footing]
     base = HarmonicModel(mesh, max(N, 1))
     soil = base.add_block("soil", "soil", E=f.E, nu=f.nu)
     base.add_reference_point("footing", 0.0)
     planes = CircumferentialPlanes(range(N + 1), f.planes or max(2 * N + 3, min_planes(N)))
+    if f.contact:
+        a, b, t, nrm, w = pairs
+        m = a.size
+        base.add_element_block(PlaneContact(
+            "contact", np.stack([3 * a, 3 * a + 1, 3 * a + 2], 1),
+            np.stack([3 * b, 3 * b + 1, 3 * b + 2], 1), t, nrm, w / (2 * np.pi),
+            np.full(m, f.contact_stiffness), np.full(m, f.contact_stiffness),
+            np.full(m, f.su), np.zeros(m), planes))
     c = np.full_like(soil.E, f.su)
     cut = None if f.cutoff is None else np.full_like(soil.E, f.cutoff)
     block = HarmonicMohrCoulomb(soil.ring, soil.element_dofs, planes, soil.E, soil.nu, c,
@@ -207,7 +230,7 @@ def run_harmonic_footing(f: HarmonicFooting) -> FootingResult:
         cons = base.constraints(n)
         cons.fix_nodes(mesh.nodes_of("base"))
         cons.fix_nodes(np.setdiff1d(mesh.nodes_of("right"), mesh.nodes_of("base")), (0, 2))
-        cons.tie_rigid(mesh.nodes_of("footing"), "footing", "bonded" if f.rough else "smooth")
+        cons.tie_rigid(footing, "footing", "bonded" if f.rough or f.contact else "smooth")
         if n == ctrl_n:
             cons.fix([ctrl], 0.0)
         maps.append(cons.build())
@@ -216,8 +239,18 @@ def run_harmonic_footing(f: HarmonicFooting) -> FootingResult:
     dof = a * base.n_dofs + ctrl
     inc = {"settlement": -f.target * B, "rotation": f.target,
            "horizontal": f.target * B}[f.control]
-    res = Stepper(model, cmap, np.zeros(model.n_dofs), [dof], [inc], settings=f.settings,
-                  residual_factory=coupled_residual(model, f.solver)).run()
+    factory = coupled_residual(model, f.solver)
+    u0 = states0 = None
+    f_ext = np.zeros(model.n_dofs)
+    if f.pressure:  # the vertical load first (n = 0), the controlled DOF held
+        f_ext[W] = -f.pressure * np.pi * (B / 2) ** 2
+        held = Stepper(model, cmap, np.zeros(model.n_dofs), [dof], [0.0], settings=f.settings,
+                       f_ext_end=f_ext, residual_factory=factory).run()
+        if held.status != "ok":
+            raise RuntimeError(f"the vertical pressure {f.pressure} kPa: {held.message}")
+        u0, states0 = held.u, held.states
+    res = Stepper(model, cmap, f_ext, [dof], [inc], settings=f.settings,
+                  residual_factory=factory).run(u0, states0)
     force = res.force[:, 0]
     disp = np.abs(res.displacement[:, 0])
     area = np.pi * (B / 2) ** 2

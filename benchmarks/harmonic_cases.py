@@ -178,6 +178,23 @@ def _circle(control: str, rough: bool = True, harmonics: int = 0, scale=None):
     return run
 
 
+def _circle_no_tension(quick: bool):
+    """M / (V D) of a circle on a no-tension contact under V = V_ult / 2 (6.05 s_u A / 2),
+    harmonics 0..4 (h = B/20); the reference is the effective-area rule's e / D."""
+    import numpy as np
+
+    from .footing import HarmonicFooting, run_harmonic_footing
+
+    B, su = 2.0, 10.0
+    p = 6.05 * su / 2
+    r = run_harmonic_footing(HarmonicFooting(su=su, B=B, harmonics=4, control="rotation",
+                                             contact=True, pressure=p, target=0.05,
+                                             h_near=0.05))
+    V = p * np.pi * B**2 / 4
+    return r.collapse / (V * B), {"n_dofs": r.n_dofs, "increments": len(r.pushover.records),
+                                  "plateau_change": r.plateau_change}
+
+
 def _demo_harmonics(quick: bool):
     """The demo's harmonic ultimate with N = 4 over N = 8 (T6, coarse quick, standard mesh
     full; the T15 pair is in docs/harmonic.md: N = 8 alone takes over 10 minutes)."""
@@ -238,6 +255,9 @@ CASES: dict[str, Case] = {c.name: c for c in [
     Case("harmonic_pushover_circle_horizontal_rough", 1.0, (0.0, 0.15),
          "sliding of a rough circle H = A s_u (common practice)",
          _circle("horizontal", harmonics=1)),
+    Case("harmonic_pushover_circle_moment_no_tension", 0.2020, (0.0, 0.10),
+         "Meyerhof 1953 effective area at V = V_ult/2: M/(V D) = e/D (from memory, derived)",
+         _circle_no_tension),
     Case("harmonic_pushover_demo_N4_vs_N8", 1.0, (-0.03, 0.03),
          "the demo's harmonic ultimate with N = 8 (issue target: within 3 %)",
          _demo_harmonics),

@@ -11,6 +11,13 @@ References:
   element and limit analysis, Gourvenec & Randolph 2003, Effect of strength non-homogeneity
   on the shape of failure envelopes for combined loading of strip and circular foundations
   on clay, Geotechnique 53(6)), from memory;
+* moment on a circle with a no-tension contact under a held vertical load V = V_ult / 2
+  (V_ult = 6.05 s_u A): the effective-area rule (Meyerhof 1953, The bearing capacity of
+  foundations under eccentric and inclined loads, Proc. 3rd ICSMFE), V = N_c s_u A'(e) with
+  the lens A'(e) of a circle, gives A' = A / 2, e = 0.4040 R and M / (V D) = 0.2020 [derived
+  here]; Gourvenec & Randolph (2003) found this rule close to FE for uniform soil (from
+  memory); it is a lower-bound idealisation, so the band is one-sided;
+* horizontal sliding of a bonded circle: H = A s_u (common practice);
 * the consistent tangent of the ring springs on the planes against central finite
   differences of their forces;
 * the first secant of the demo's harmonic pushover against the elastic harmonic solve
@@ -74,6 +81,40 @@ def test_pure_moment_on_a_bonded_circle():
     assert fine.plateau_change < 0.01
     _band(fine.collapse / (A * B * SU), 0.67, -0.02, 0.06)
     assert fine.collapse < coarse.collapse
+
+
+def test_horizontal_sliding_of_a_rough_circle():
+    """H = A s_u (sliding on the base of a bonded circle, common practice), harmonics 0..1,
+    T15, h = B / 10 at the edge: 0 ... +15 % (the shear band takes the first element row
+    below the base; the bench's full run has h = B / 20)."""
+    r = run_harmonic_footing(HarmonicFooting(su=SU, harmonics=1, control="horizontal",
+                                             target=0.02, h_near=0.1))
+    assert r.plateau_change < 0.01
+    _band(r.collapse, SU, 0.0, 0.15)
+
+
+def _lens_eccentricity(area_ratio):
+    """e / R of the circle's effective area (the lens of two circular segments) A' / A."""
+    from scipy.optimize import brentq
+
+    return brentq(lambda x: 2 / np.pi * (np.arccos(x) - x * np.sqrt(1 - x * x)) - area_ratio,
+                  0.0, 1.0)
+
+
+def test_moment_on_a_no_tension_circle_under_half_the_vertical_capacity():
+    """M / (V D) = e / D = 0.2020 at V = V_ult / 2 (effective area, Meyerhof 1953 [derived]),
+    harmonics 0..4, T15, h = B / 20 at the edge, no-tension contact: 0 ... +10 % (the rule is
+    a lower-bound idealisation; displacement FE over-predicts by a few per cent)."""
+    B, V_ult = 2.0, 6.05 * SU  # kPa
+    ref = _lens_eccentricity(0.5) / 2
+    assert ref == pytest.approx(0.2020, abs=1e-4)
+    r = run_harmonic_footing(HarmonicFooting(su=SU, harmonics=4, control="rotation",
+                                             contact=True, pressure=V_ult / 2, target=0.05,
+                                             h_near=0.05))
+    assert r.pushover.status == "ok"
+    assert r.plateau_change < 0.015
+    V = V_ult / 2 * np.pi * B**2 / 4
+    _band(r.collapse / (V * B), ref, 0.0, 0.10)
 
 
 @pytest.mark.parametrize("solver", ["krylov", "lagged"])
