@@ -122,8 +122,7 @@ PERF = {
     "perf_campaign_throughput": _perf_campaign,
     "perf_harmonic_pushover_vs_slice": _perf_harmonic_pushover,
 }
-QUICK_SKIP = {"perf_demo_standard_T15", "harmonic_pushover_circle_horizontal_rough",
-              "harmonic_pushover_circle_moment_no_tension"}
+QUICK_SKIP = {"perf_demo_standard_T15", "harmonic_pushover_circle_moment_no_tension"}
 
 
 def _run_one(name: str, quick: bool) -> dict:
