@@ -189,11 +189,10 @@ def run_harmonic_footing(f: HarmonicFooting) -> FootingResult:
     """The footing's load-displacement curve: mean pressure (kPa), horizontal force over the
     area (kPa) or the moment (kNm), against settlement, sliding (m) or rotation (rad)."""
     from femcore.harmonic import HarmonicModel
-    from femcore.harmonic_coupled import (CoupledModel, PlaneContact, combine_maps,
-                                          coupled_residual)
-    from femcore.kinematics import Kinematics
+    from femcore.harmonic_coupled import CoupledModel, PlaneContact, combine_maps, coupled_residual
     from femcore.harmonic_planes import CircumferentialPlanes, min_planes
     from femcore.harmonic_plastic import HarmonicMohrCoulomb
+    from femcore.kinematics import Kinematics
 
     B, N = f.B, int(f.harmonics)
     mesh = layered_domain(f.width_factor * B, f.depth_factor * B, x_min=0.0,

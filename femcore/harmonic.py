@@ -938,7 +938,7 @@ class HarmonicModel:
     # ------------------------------------------------------------ solution
     def solve(self, n: int, cmap: ConstraintMap, f_ext: NDArray[np.float64] | None = None,
               prescribed: NDArray[np.float64] | None = None,
-              backend: str = "superlu") -> HarmonicSolution:
+              backend: str = "auto") -> HarmonicSolution:
         """Linear solve of harmonic n; one factorisation for all load cases.
 
         Parameters
@@ -1008,7 +1008,7 @@ class RigidStiffness:
 
 def rigid_stiffness(model: HarmonicModel, nodes, supports, contact: str = "bonded",
                     y_ref: float = 0.0, ref: str = "rigid_body",
-                    backend: str = "superlu") -> RigidStiffness:
+                    backend: str = "auto") -> RigidStiffness:
     """K_V (n = 0), K_H, K_R, K_HR (n = 1) and K_T of a rigid body tied to ``nodes``.
 
     Parameters

@@ -196,7 +196,7 @@ class Model:
 
     def solve_linear(
         self, cmap: ConstraintMap, f_ext: NDArray[np.float64], states: list[State] | None = None,
-        backend: str = "superlu",
+        backend: str = "auto",
     ) -> LinearSolution:
         """One linear step from ``states`` (default: stress-free) under ``f_ext``.
 

@@ -52,7 +52,7 @@ def newton(
     x0: NDArray[np.float64],
     rtol: float = 1e-6,
     max_iter: int = 25,
-    backend: str = "superlu",
+    backend: str = "auto",
     divergence: float = 1e6,
     reuse: dict | None = None,
     line_search: bool = False,

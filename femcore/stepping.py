@@ -51,7 +51,7 @@ class StepSettings:
     rtol: float = 1e-6
     max_iterations: int = 25
     drop_fraction: float | None = None  # stop when |force| < (1 - drop) * peak
-    backend: str = "superlu"
+    backend: str = "auto"  # linear solver (femcore.linsolve: PARDISO when installed)
     reuse_factorization: bool = False  # modified-Newton first step with the last tangent
     broyden: int = 0  # Broyden updates of a factorization before a new one (newton())
 
@@ -327,12 +327,7 @@ def _bordered_callback(base, cmap: ConstraintMap, f_ref, f_ref_red, ctrl_free: i
                 return _BorderedSolve(K, f_ref_red, ctrl_free, scale["s"])
             if "s" not in scale:
                 scale["s"] = float(np.abs(K.diagonal()).mean()) or 1.0
-            s = scale["s"]
-            n = K.shape[0]
-            col = sp.csc_matrix((-s * f_ref_red[nz], (nz, np.zeros(nz.size, dtype=np.int64))),
-                                shape=(n, 1))
-            row = sp.csc_matrix(([s], ([0], [ctrl_free])), shape=(1, n))
-            return sp.bmat([[K, col], [row, None]], format="csc")
+            return bordered_csc(K, nz, -scale["s"] * f_ref_red[nz], ctrl_free, scale["s"])
 
         s = scale.get("s", 1.0)
         lam_f = s * x[-1]
@@ -343,6 +338,24 @@ def _bordered_callback(base, cmap: ConstraintMap, f_ref, f_ref_red, ctrl_free: i
                 (u, trial, generalized))
 
     return residual
+
+
+def bordered_csc(K: sp.spmatrix, col_rows: NDArray[np.int64], col_values: NDArray[np.float64],
+                 row_col: int, row_value: float) -> sp.csc_matrix:
+    """``[[K, c], [r^T, 0]]`` in CSC, with ``c`` nonzero at ``col_rows`` and ``r`` a single
+    entry ``row_value`` in column ``row_col``: K's arrays copied once, with one entry
+    inserted (no format conversion of the whole matrix)."""
+    K = K if sp.isspmatrix_csc(K) else sp.csc_matrix(K)
+    n = K.shape[0]
+    at = int(K.indptr[row_col + 1])
+    order = np.argsort(col_rows)
+    indices = np.concatenate([K.indices[:at], [n], K.indices[at:], col_rows[order]])
+    data = np.concatenate([K.data[:at], [row_value], K.data[at:], col_values[order]])
+    indptr = np.concatenate([K.indptr, [K.indptr[-1]]])
+    indptr[row_col + 1:] += 1
+    indptr[-1] += col_rows.size
+    return sp.csc_matrix((data, indices.astype(K.indices.dtype, copy=False), indptr),
+                         shape=(n + 1, n + 1))
 
 
 class _BorderedSolve:

@@ -159,3 +159,28 @@ def test_broyden_updates_reach_the_root_with_fewer_factorizations():
     for res in (plain, quasi):
         assert np.allclose(res.x, ref, rtol=1e-8, atol=1e-8 * np.abs(ref).max())
     assert count["broyden"] < count["plain"]
+
+
+def test_bordered_matrix_equals_scipy_block_assembly():
+    """The bordered tangent of proportional loading, built by inserting one row entry and one
+    column into K's CSC arrays, equals SciPy's general block assembly ``bmat`` (independent
+    code) entry by entry, and solves the same system."""
+    import scipy.sparse as sp
+
+    from femcore.stepping import bordered_csc
+
+    rng = np.random.default_rng(3)
+    n = 60
+    K = (sp.random(n, n, density=0.08, format="csc", random_state=4) + 4 * sp.eye(n)).tocsc()
+    rows = np.array([51, 2, 30, 17])
+    vals = rng.normal(size=rows.size)
+    B = bordered_csc(K, rows, vals, 9, 2.5)
+    col = sp.csc_matrix((vals, (rows, np.zeros(rows.size, dtype=int))), shape=(n, 1))
+    row = sp.csc_matrix(([2.5], ([0], [9])), shape=(1, n))
+    ref = sp.bmat([[K, col], [row, None]], format="csc")
+    assert B.shape == (n + 1, n + 1)
+    assert abs(B - ref).max() == 0.0
+    b = rng.normal(size=n + 1)
+    from femcore.linsolve import solve
+
+    assert np.allclose(solve(B, b, "superlu"), solve(ref, b, "superlu"), rtol=1e-12)

@@ -329,10 +329,7 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     stages = stages_for(built, settings)
     log = run_stages(built, stages, progress)
     t1 = time.perf_counter()
-    stage_rows = [{"name": o.name, "seconds": o.seconds,
-                   "increments": 0 if o.result is None else len(o.result.records),
-                   "iterations": 0 if o.result is None else int(o.result.iterations.sum()),
-                   "status": "ok" if o.ok else "diverged"} for o in log.outcomes]
+    stage_rows = _stage_rows(log)
     failed = log.failed
     final = log.last
     info = _model_info(built)
@@ -382,7 +379,8 @@ def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None =
     timings = {"harmonic_s": built.meta.get("harmonic_s", 0.0),
                "calibration_s": cal.get("seconds", 0.0),
                "build_s": built.meta.get("build_s", 0.0), "stages_s": stages_s,
-               "pushover_s": final.seconds, "postprocess_s": t2 - t1,
+               "pushover_s": final.seconds, "pushover_solver_s": final.solver_s,
+               "pushover_factorizations": final.factorizations, "postprocess_s": t2 - t1,
                "total_s": t2 - t0 + pre,
                "increments": len(res.records), "iterations": int(res.iterations.sum()),
                "cutbacks": res.cutbacks}
@@ -485,6 +483,7 @@ def _stage_rows(log: StageLog) -> list[dict]:
     return [{"name": o.name, "seconds": o.seconds,
              "increments": 0 if o.result is None else len(o.result.records),
              "iterations": 0 if o.result is None else int(o.result.iterations.sum()),
+             "factorizations": o.factorizations, "solver_s": o.solver_s,
              "status": "ok" if o.ok else "diverged"} for o in log.outcomes]
 
 

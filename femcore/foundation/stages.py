@@ -30,6 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import NDArray
 
+from .. import linsolve
 from ..initial_stress import apply_k0, profile_loads
 from ..interfaces import SpringBlock
 from ..model import SolidBlock
@@ -73,6 +74,8 @@ class StageOutcome:
     name: str
     result: StepResult | None  # None for stages without a solve
     seconds: float
+    factorizations: int = 0  # sparse factorizations during the stage (femcore.linsolve)
+    solver_s: float = 0.0  # seconds in factorizations and solves during the stage
 
     @property
     def ok(self) -> bool:
@@ -335,9 +338,12 @@ def run_stages(built: BuiltModel, stages: Sequence,
     log = StageLog()
     for k, stage in enumerate(stages):
         t = time.perf_counter()
+        f0, s0 = linsolve.STATS["factorizations"], linsolve.STATS["seconds"]
         log.start = state
         state, res = stage.run(built, state, progress if k == len(stages) - 1 else None)
-        log.outcomes.append(StageOutcome(stage.name, res, time.perf_counter() - t))
+        log.outcomes.append(StageOutcome(stage.name, res, time.perf_counter() - t,
+                                         linsolve.STATS["factorizations"] - f0,
+                                         linsolve.STATS["seconds"] - s0))
         if not log.outcomes[-1].ok:
             break
     log.state = state

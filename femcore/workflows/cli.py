@@ -47,7 +47,7 @@ def _cmd_info(args: argparse.Namespace) -> int:
     import scipy
 
     from femcore import __version__
-    from femcore.linsolve import available_backends
+    from femcore.linsolve import available_backends, preferred_backend
     from meshing import gmsh_version as _gmsh_version
 
     try:
@@ -57,7 +57,8 @@ def _cmd_info(args: argparse.Namespace) -> int:
     print(f"tiltfe {__version__}")
     print(f"python {platform.python_version()}, numpy {numpy.__version__}, "
           f"scipy {scipy.__version__}, gmsh {gmsh_version}")
-    print(f"linear solver backends: {', '.join(available_backends())}")
+    print(f"linear solver backends: {', '.join(available_backends())} "
+          f"(in use: {preferred_backend()}; TILTFE_SOLVER picks one)")
     print()
     print(CAUTION)
     return EXIT_OK
@@ -391,8 +392,24 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _solver_env_problem() -> str | None:
+    """What is wrong with the TILTFE_SOLVER environment variable, if anything."""
+    import os
+
+    value = os.environ.get("TILTFE_SOLVER")
+    if value is None:
+        return None
+    from femcore.linsolve import check_backend_name
+
+    return check_backend_name(value.strip().lower() or "auto", "TILTFE_SOLVER")
+
+
 def main(argv: list[str] | None = None) -> int:
     argv = sys.argv[1:] if argv is None else list(argv)
+    problem = _solver_env_problem()
+    if problem:
+        print(f"tiltfe: invalid environment\n  {problem}", file=sys.stderr)
+        return EXIT_INPUT
     if argv[:1] == ["bench"]:  # the benchmark runner has its own options
         from benchmarks.runner import main as bench_main
 

@@ -41,8 +41,12 @@ def _watch_parent(parent: int) -> None:
             os._exit(3)
 
 
-def _worker_main(conn: Connection, parent: int, target: Callable[..., RunRecord]) -> None:
+def _worker_main(conn: Connection, parent: int, target: Callable[..., RunRecord],
+                 threads: int = 1) -> None:
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    # the optional PARDISO solver (MKL, loaded at its first use) gets this worker's share of
+    # the cores; n workers with all cores each would oversubscribe the machine
+    os.environ.setdefault("MKL_NUM_THREADS", str(threads))
     threading.Thread(target=_watch_parent, args=(parent,), daemon=True).start()
     while True:
         try:
@@ -72,11 +76,13 @@ class WorkerPool:
         self._ctx = mp.get_context("spawn")
         self._target = target
         self.hard_limit = hard_limit
+        self._threads = max(1, (os.cpu_count() or 1) // max(n, 1))
         self.workers: list[_Worker] = [self._start() for _ in range(n)]
 
     def _start(self) -> _Worker:
         mine, theirs = self._ctx.Pipe()
-        p = self._ctx.Process(target=_worker_main, args=(theirs, os.getpid(), self._target),
+        p = self._ctx.Process(target=_worker_main,
+                              args=(theirs, os.getpid(), self._target, self._threads),
                               daemon=True)
         p.start()
         theirs.close()
