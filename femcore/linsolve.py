@@ -20,6 +20,7 @@ import functools
 import importlib.util
 import os
 import time
+import zlib
 from contextlib import contextmanager
 
 import numpy as np
@@ -260,11 +261,42 @@ class _Pardiso:
         return self._h.solve(self._data, b)
 
 
+#: signatures of sparsity patterns factorized once (by SuperLU) under the PARDISO backend
+_SEEN: dict[tuple, None] = {}
+
+
+def _signature(A: sp.spmatrix) -> tuple:
+    return (A.shape[0], A.nnz, A.format, zlib.crc32(np.ascontiguousarray(A.indptr)),
+            zlib.crc32(np.ascontiguousarray(A.indices)))
+
+
+def _pardiso_or_first_sight(A: sp.spmatrix):
+    """PARDISO pays for a sparsity pattern once (the symbolic analysis, several numerical
+    factorizations' worth): a pattern seen for the first time is factorized by SuperLU (a
+    one-off solve: the elastic 3D solves, a calibration, the dynamic analysis), from the
+    second time on by PARDISO with the analysis kept (a Newton run)."""
+    A = A if sp.isspmatrix_csc(A) or sp.isspmatrix_csr(A) else sp.csc_matrix(A)
+    if any(h.matches(A) for h in _PATTERNS):
+        return _Pardiso(A)
+    key = _signature(A)
+    if key in _SEEN:
+        _SEEN.pop(key)
+        return _Pardiso(A)
+    _SEEN[key] = None
+    if len(_SEEN) > 64:
+        _SEEN.pop(next(iter(_SEEN)))
+    return _SuperLU(A)
+
+
 def factorize(A: sp.spmatrix, backend: str = "auto"):
-    """A factorization object with ``.solve(b)`` (time counted in :data:`STATS`)."""
+    """A factorization object with ``.solve(b)`` (time counted in :data:`STATS`). With the
+    PARDISO backend a pattern's first factorization is SuperLU's (see
+    :func:`_pardiso_or_first_sight`)."""
     t0 = time.perf_counter()
     try:
-        return _Pardiso(A) if _resolve(backend) == "pardiso" else _SuperLU(A)
+        if _resolve(backend) == "pardiso":
+            return _pardiso_or_first_sight(A)
+        return _SuperLU(A)
     finally:
         STATS["seconds"] += time.perf_counter() - t0
         STATS["factorizations"] = STATS.get("factorizations", 0) + 1

@@ -275,9 +275,7 @@ def layered_domain(
                      "top": regions.GROUND, "footing": regions.FOOTING}
         _name_box_edges(x0, x1, -depth, 0.0, box_names,
                         footing=None if footing is None else tuple(sorted(footing)))
-        for k, ((ax, ay), (bx, by)) in enumerate(lines, start=1):
-            on = [c for _, c in gmsh.model.getEntities(1)
-                  if _curve_on_segment(c, (ax, ay), (bx, by), tol)]
+        for k, on in enumerate(_curves_on_segments(lines, tol), start=1):
             gmsh.model.addPhysicalGroup(1, on, name=regions.line(k))
         if cap_tags:
             cap_boundary = gmsh.model.getBoundary([(2, t) for t in cap_tags], oriented=False)
@@ -322,18 +320,26 @@ def _group(dim: int, name: str) -> int:
     raise KeyError(name)
 
 
-def _curve_on_segment(ctag: int, a, b, tol: float) -> bool:
-    d = np.subtract(b, a)
-    length = np.hypot(*d)
-    # sample the curve parametrisation: every sample must lie on the segment
-    lo, hi = gmsh.model.getParametrizationBounds(1, ctag)
-    ts = np.linspace(lo[0], hi[0], 5)
-    xyz = np.asarray(gmsh.model.getValue(1, ctag, ts)).reshape(-1, 3)
-    rel = xyz[:, :2] - np.asarray(a)
-    cross = d[0] * rel[:, 1] - d[1] * rel[:, 0]
-    s = rel @ d / length**2
-    return bool(np.all(np.abs(cross) / length < 10 * tol) and np.all(s > -1e-9)
-                and np.all(s < 1 + 1e-9))
+def _curves_on_segments(lines, tol: float) -> list[list[int]]:
+    """For each segment ``(a, b)`` of ``lines``, the model curves lying on it: five samples
+    of each curve's parametrisation (taken once per curve) must all lie on the segment."""
+    tags = [c for _, c in gmsh.model.getEntities(1)]
+    if not tags or not lines:
+        return [[] for _ in lines]
+    xy = np.empty((len(tags), 5, 2))
+    for i, c in enumerate(tags):
+        lo, hi = gmsh.model.getParametrizationBounds(1, c)
+        xy[i] = np.asarray(gmsh.model.getValue(1, c, np.linspace(lo[0], hi[0], 5))
+                           ).reshape(-1, 3)[:, :2]
+    ab = np.asarray(lines, dtype=float)  # (m, 2, 2)
+    a, d = ab[:, 0], ab[:, 1] - ab[:, 0]  # (m, 2)
+    length = np.hypot(d[:, 0], d[:, 1])
+    rel = xy[None] - a[:, None, None]  # (m, c, 5, 2)
+    cross = d[:, None, None, 0] * rel[..., 1] - d[:, None, None, 1] * rel[..., 0]
+    t = np.einsum("mcsk,mk->mcs", rel, d) / length[:, None, None] ** 2
+    on = (np.all(np.abs(cross) / length[:, None, None] < 10 * tol, axis=2)
+          & np.all(t > -1e-9, axis=2) & np.all(t < 1 + 1e-9, axis=2))
+    return [[tags[i] for i in np.flatnonzero(row)] for row in on]
 
 
 def _inside(poly: np.ndarray, x: float, y: float) -> bool:

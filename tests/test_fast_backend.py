@@ -38,6 +38,23 @@ def test_pardiso_reports_a_mechanism_as_singular():
     import scipy.sparse as sp
 
     A = sp.csc_matrix(np.array([[1.0, -1.0], [-1.0, 1.0]]))
-    for backend in ("superlu", "pardiso"):
-        with pytest.raises(linsolve.SolverError, match="singular"):
-            linsolve.factorize(A, backend)
+    for _ in range(3):  # a pattern's first factorization is SuperLU's, later ones PARDISO's
+        for backend in ("superlu", "pardiso"):
+            with pytest.raises(linsolve.SolverError, match="singular"):
+                linsolve.factorize(A, backend)
+
+
+def test_pardiso_refactorizations_solve_with_their_own_matrix():
+    """Factorizations of one pattern share PARDISO's analysis; an older one still solves
+    with its own numbers (against SuperLU of the same matrix, 1e-10)."""
+    import scipy.sparse as sp
+
+    n = 40
+    rng = np.random.default_rng(5)
+    base = sp.random(n, n, density=0.1, format="csc", random_state=6) + 5 * sp.eye(n)
+    mats = [(base + k * sp.eye(n)).tocsc() for k in range(3)]
+    lus = [linsolve.factorize(A, "pardiso") for A in mats]
+    assert isinstance(lus[-1], linsolve._Pardiso)
+    b = rng.normal(size=n)
+    for A, lu in zip(mats, lus, strict=True):
+        assert np.allclose(lu.solve(b), linsolve.factorize(A, "superlu").solve(b), rtol=1e-10)

@@ -25,6 +25,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import NDArray
 
 __all__ = ["Ring", "Row", "lump_rings", "merge_close_rows", "default_slice_length"]
 
@@ -50,23 +51,30 @@ def default_slice_length(cap_radius: float) -> float:
     return 16.0 * cap_radius / (3.0 * np.pi)
 
 
-def _segment_distance(p1, p2, q1, q2) -> float:
-    """Shortest distance between segments p1-p2 and q1-q2 in the plane."""
-    def cross(o, a, b):
-        return (a[0] - o[0]) * (b[1] - o[1]) - (a[1] - o[1]) * (b[0] - o[0])
+def _segment_distances(p1, p2) -> NDArray[np.float64]:
+    """Shortest distances ``(m, m)`` between the plane segments ``p1[i]``-``p2[i]``
+    (``(m, 2)`` arrays): zero where two segments cross, else the least of the four
+    end-point-to-segment distances."""
+    p1, p2 = np.asarray(p1, float), np.asarray(p2, float)
 
-    d1, d2 = cross(q1, q2, p1), cross(q1, q2, p2)
-    d3, d4 = cross(p1, p2, q1), cross(p1, p2, q2)
-    if d1 * d2 < 0 and d3 * d4 < 0:
-        return 0.0
+    def cross(o, a, b):  # broadcasting (..., 2)
+        return (a[..., 0] - o[..., 0]) * (b[..., 1] - o[..., 1]) \
+            - (a[..., 1] - o[..., 1]) * (b[..., 0] - o[..., 0])
+
+    P1, P2 = p1[:, None], p2[:, None]  # segment i along rows
+    Q1, Q2 = p1[None], p2[None]  # segment j along columns
+    crossing = (cross(Q1, Q2, P1) * cross(Q1, Q2, P2) < 0) \
+        & (cross(P1, P2, Q1) * cross(P1, P2, Q2) < 0)
 
     def point_seg(p, a, b):
-        ab = np.subtract(b, a)
-        t = np.clip(np.dot(np.subtract(p, a), ab) / max(np.dot(ab, ab), 1e-300), 0.0, 1.0)
-        return float(np.hypot(*(np.asarray(a) + t * ab - p)))
+        ab = b - a
+        t = np.clip(np.sum((p - a) * ab, axis=-1) / np.maximum(np.sum(ab * ab, axis=-1),
+                                                              1e-300), 0.0, 1.0)
+        return np.hypot(*np.moveaxis(a + t[..., None] * ab - p, -1, 0))
 
-    return min(point_seg(p1, q1, q2), point_seg(p2, q1, q2), point_seg(q1, p1, p2),
-               point_seg(q2, p1, p2))
+    d = np.minimum.reduce([point_seg(P1, Q1, Q2), point_seg(P2, Q1, Q2),
+                           point_seg(Q1, P1, P2), point_seg(Q2, P1, P2)])
+    return np.where(crossing, 0.0, d)
 
 
 def _line(row: Row, depth: float):
@@ -89,18 +97,16 @@ def merge_close_rows(rows: list[Row], depth: float, merge: float) -> list[Row]:
     Rows on opposite sides of x = 0 merge only at x = 0 (the layout stays symmetric)."""
     rows = list(rows)
     while True:
-        best, pair = merge, None
-        for i in range(len(rows)):  # a few dozen rows: set-up, not a hot path
-            for j in range(i + 1, len(rows)):
-                a, b = rows[i], rows[j]
-                if a.x * b.x < 0:
-                    continue
-                d = _segment_distance(*_line(a, depth), *_line(b, depth))
-                if d < best:
-                    best, pair = d, (i, j)
-        if pair is None:
+        ends = np.array([_line(r, depth) for r in rows], dtype=float)  # (m, 2, 2)
+        D = _segment_distances(ends[:, 0], ends[:, 1])
+        x = np.array([r.x for r in rows])
+        D[np.outer(x, x) < 0] = np.inf  # opposite sides of x = 0
+        D[np.tril_indices(len(rows))] = np.inf  # each pair once, not with itself
+        k = int(np.argmin(D)) if D.size else 0
+        if not D.size or D.flat[k] >= merge:
             return sorted(rows, key=lambda r: r.x)
-        i, j = pair
+        i, j = np.unravel_index(k, D.shape)
+        pair = (int(i), int(j))
         merged = _merge(rows[i], rows[j])
         rows = [r for k, r in enumerate(rows) if k not in pair] + [merged]
 

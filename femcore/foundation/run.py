@@ -38,7 +38,7 @@ from .records import (
     Status,
 )
 from .requirements import check_requirements
-from .stages import StageLog, run_stages, stages_for
+from .stages import PUSHOVER_RELATIVE, STRENGTH_RELATIVE, StageLog, run_stages, stages_for
 from .strength import factored_design
 
 __all__ = ["Result", "run_design", "run_built", "run_harmonic", "prepare",
@@ -315,18 +315,21 @@ def _stopped_checks(design: Design, kp: dict[str, KeyPoint],
 
 def run_built(built: BuiltModel, progress: Callable[[StepRecord], None] | None = None,
               settings: StepSettings | None = None, dynamic: bool = True,
-              elastic: ElasticStiffness | None = None, factored: bool = True) -> Result:
+              elastic: ElasticStiffness | None = None, factored: bool = True,
+              relative: float = PUSHOVER_RELATIVE) -> Result:
     """Run the stages of a built model and evaluate everything (see the module docstring).
 
     ``progress`` sees every converged pushover increment; ``settings`` overrides the pushover
     increments; ``dynamic`` False skips the small-strain analysis (its check is then
     reported as not decided); ``elastic`` (the harmonic operational stiffness, computed
     here when None and the design allows it) gives the initial stiffness; ``factored``
-    False skips the design-strength pushover of a design with ``[design_strength]``.
+    False skips the design-strength pushover of a design with ``[design_strength]``;
+    ``relative`` bounds pushover increments relative to the rotation reached (the
+    design-strength pushover runs with the coarser :data:`~.stages.STRENGTH_RELATIVE`).
     """
     t0 = time.perf_counter()
     design = built.design
-    stages = stages_for(built, settings)
+    stages = stages_for(built, settings, relative)
     log = run_stages(built, stages, progress)
     t1 = time.perf_counter()
     stage_rows = _stage_rows(log)
@@ -404,7 +407,7 @@ def _design_strength_run(built: BuiltModel, elastic, settings, progress=None) ->
                      pile_resistance=design.design_strength.pile_resistance)
     fb.meta.update(slice_calibration=built.meta.get("slice_calibration"))
     sub = run_built(fb, progress, settings=settings, dynamic=False, elastic=elastic,
-                    factored=False)
+                    factored=False, relative=STRENGTH_RELATIVE)
     ult = sub.keypoints.get("ultimate")
     keep = ("ultimate", "yield_equal_energy", "yield_tangents", "ultimate_hyperbolic")
     record = {"factors": design.design_strength.model_dump(), "status": sub.status,
