@@ -90,3 +90,21 @@ def test_bench_quick_suite_passes_against_baseline(tmp_path):
     validation = [r for r in data["rows"] if r["kind"] == "validation"]
     assert len(validation) >= 25 and all(r["passed"] for r in validation)
     assert (tmp_path / "convergence.png").stat().st_size > 0
+
+
+def test_perf_run_split_quick(tmp_path):
+    """One ``tiltfe run`` (coarse demo) in a fresh process: the parts of its split add up to
+    its wall time (start-up is the remainder and cannot be negative), the ratios follow
+    from the parts, and the stages record their factorizations (each Newton iteration of a
+    load stage factorizes at most once)."""
+    res = run_script("perf_run", tmp_path)
+    parts = ("startup_s", "elastic_3d_s", "calibration_s", "build_s", "stages_s",
+             "pushover_s", "design_strength_s", "postprocess_s", "outputs_s", "other_s")
+    assert all(res[k] >= 0 for k in parts if k != "other_s")
+    assert abs(res["other_s"]) < 0.05 * res["wall_s"]
+    assert sum(res[k] for k in parts) == pytest.approx(res["wall_s"], rel=1e-9)
+    assert res["wall_over_pushover"] == pytest.approx(res["wall_s"] / res["pushover_s"])
+    assert 0 < res["pushover_solver_share"] <= 1
+    f = res["stage_factorizations"]
+    assert f["at-rest stresses"] == 0 and 1 <= f["self-weight"] <= 12
+    assert f["pushover"] >= 1
