@@ -661,9 +661,12 @@ def test_dynamic_false_skips_the_dynamic_stiffness(springs_stores):
         assert a["dynamic_stiffness"] is None and b["dynamic_stiffness"] > 0
         assert a["req.dynamic_stiffness.value"] is None
         assert a["req.dynamic_stiffness.passed"] is None  # not decided without the analysis
-        # the pushover and its static check do not depend on the switch (same samples)
+        # the pushover and its static check do not depend on the switch (same samples; to
+        # round-off, since under the PARDISO backend a pattern's first factorization is
+        # SuperLU's and the dynamic analysis adds factorizations)
         assert a["cap.diameter"] == b["cap.diameter"]
-        assert a["req.static_stiffness.value"] == b["req.static_stiffness.value"]
+        assert a["req.static_stiffness.value"] == pytest.approx(
+            b["req.static_stiffness.value"], rel=1e-9)
     assert all(r.dynamic is None for r in Store(without).records().values())
 
 

@@ -71,8 +71,11 @@ def versions() -> dict[str, str]:
 
     from meshing import gmsh_version
 
+    from ..linsolve import preferred_backend
+
     return {"tiltfe": __version__, "python": platform.python_version(),
-            "numpy": np.__version__, "scipy": scipy.__version__, "gmsh": gmsh_version()}
+            "numpy": np.__version__, "scipy": scipy.__version__, "gmsh": gmsh_version(),
+            "linear_solver": preferred_backend()}
 
 
 @dataclass

@@ -198,6 +198,10 @@ def _print_summary(result, out: Path, t_total: float) -> None:
                   f"{tm.get('increments', 0)} increments",
                   f"{tm.get('iterations', 0)} Newton iterations"]
         print(f"timings       {t_total:.1f} s total ({', '.join(parts)})")
+    solver = (result.model.get("versions") or {}).get("linear_solver")
+    if solver:
+        print(f"linear solver {solver}" + ("" if solver == "pardiso" else
+                                           " (pip install -e \".[fast]\" for PARDISO)"))
     print(f"results       {out}/")
     print()
     print(CAUTION)

@@ -82,6 +82,9 @@ def _model_summary(model: dict) -> dict:
     out = {k: model.get(k) for k in keys if k in model}
     if "rows" in model:
         out["rows"] = len(model["rows"])
+    solver = (model.get("versions") or {}).get("linear_solver")
+    if solver is not None:
+        out["linear_solver"] = solver
     return out
 
 

@@ -15,11 +15,13 @@ Columns, in this order:
   ``.max_compression``, ``.max_tension`` (kN per pile, compression positive) and
   ``.max_bending_moment`` (kNm per pile) over the pushover, one set per pile row of the slice
   (rows numbered from 1, in the order of the slice's rows);
-* ``time.<name>``: the run's timings (``total_s``, ``build_s``, ``harmonic_s``,
-  ``calibration_s``, ``stages_s``, ``pushover_s``, ``design_strength_s``, ``postprocess_s`` in
-  seconds; ``increments``, ``iterations``, ``cutbacks`` counts);
+* ``time.<name>``: the run's timings (``total_s``, ``build_s`` (with the calibration),
+  ``harmonic_s``, ``calibration_s``, ``stages_s``, ``pushover_s``, ``pushover_solver_s`` (its
+  factorizations and solves), ``design_strength_s``, ``postprocess_s`` in seconds;
+  ``increments``, ``iterations``, ``cutbacks``, ``pushover_factorizations`` counts);
 * ``model.<name>``: the model's size and settings (``dofs``, ``nodes``, ``cells``, ``rows``,
-  ``element``, ``mesh``, ``support``, ``slice_length_m``);
+  ``element``, ``mesh``, ``support``, ``slice_length_m``, ``linear_solver``: ``superlu`` or
+  ``pardiso``, the sparse solver the run used);
 * ``prov.tiltfe``, ``prov.git``, ``prov.gmsh``, ``prov.mesh``, ``prov.element``,
   ``prov.support``: the provenance of the run, and ``finished_at`` (Unix time it was stored);
 * ``theta_00`` ... ``theta_39`` and ``moment_00`` ... ``moment_39``: the moment (kNm) at each
