@@ -47,10 +47,25 @@ class SolverError(RuntimeError):
 
 
 def available_backends() -> list[str]:
+    """The backends that work here: SuperLU always, PARDISO when pypardiso is installed and
+    its MKL library loads (see :func:`pardiso_problem`)."""
     out = ["superlu"]
-    if importlib.util.find_spec("pypardiso") is not None:
+    if pardiso_problem() is None:
         out.append("pardiso")
     return out
+
+
+@functools.cache
+def pardiso_problem() -> str | None:
+    """None when PARDISO can be used, else why not (not installed, or its MKL library does
+    not load: then "auto" falls back to SuperLU instead of failing at the first solve)."""
+    if importlib.util.find_spec("pypardiso") is None:
+        return "pypardiso is not installed (pip install -e \".[fast]\")"
+    try:
+        _mkl_pardiso()
+    except Exception as exc:  # noqa: BLE001 - a broken install is reported, never raised
+        return f"pypardiso is installed but MKL's PARDISO does not load ({exc})"
+    return None
 
 
 def check_backend_name(name: str, where: str = "backend") -> str | None:
@@ -58,8 +73,7 @@ def check_backend_name(name: str, where: str = "backend") -> str | None:
     if name not in BACKENDS:
         return f"{where}: expected one of {', '.join(BACKENDS)}, got {name!r}"
     if name == "pardiso" and "pardiso" not in available_backends():
-        return (f"{where} = 'pardiso' needs the optional package pypardiso "
-                "(pip install -e \".[fast]\")")
+        return f"{where} = 'pardiso' cannot be used: {pardiso_problem()}"
     return None
 
 

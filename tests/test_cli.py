@@ -457,3 +457,14 @@ def test_run_stopped_in_the_weight_stage_claims_no_pass(tmp_path, capsys):
     assert "stopped in the self-weight stage" in res["requirements"]["static_stiffness"][
         "detail"]
     assert (out / "report.pdf").stat().st_size > 0
+
+
+def test_unknown_solver_in_the_environment_exits_2(monkeypatch, capsys):
+    """TILTFE_SOLVER outside auto / superlu / pardiso: exit code 2 naming the variable, the
+    value and the choices (before any work)."""
+    from femcore.workflows import cli
+
+    monkeypatch.setenv("TILTFE_SOLVER", "mumps")
+    assert cli.main(["info"]) == 2
+    err = capsys.readouterr().err
+    assert "TILTFE_SOLVER" in err and "'mumps'" in err and "auto, superlu, pardiso" in err

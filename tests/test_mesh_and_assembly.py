@@ -131,6 +131,30 @@ def test_optional_backend_agrees():
     assert np.allclose(solve(A, b, "pardiso"), solve(A, b, "superlu"), rtol=1e-10)
 
 
+def test_pardiso_that_does_not_load_falls_back_to_superlu(monkeypatch):
+    """A PARDISO install whose MKL library does not load is reported, never raised: "auto"
+    solves with SuperLU (the same solution as asking for SuperLU, to 1e-12) and asking for
+    PARDISO by name is refused naming the cause."""
+    from femcore import linsolve
+
+    def broken():
+        raise OSError("libmkl_rt.so: cannot open shared object file")
+
+    linsolve.pardiso_problem.cache_clear()
+    monkeypatch.setattr(linsolve, "_mkl_pardiso", broken)
+    try:
+        assert linsolve.available_backends() == ["superlu"]
+        assert linsolve.preferred_backend() == "superlu"
+        A = sp.random(50, 50, density=0.1, random_state=2) + 5 * sp.eye(50)
+        b = np.arange(50.0)
+        assert np.allclose(solve(A, b), solve(A, b, "superlu"), rtol=1e-12)
+        problem = linsolve.check_backend_name("pardiso", "TILTFE_SOLVER")
+        assert problem.startswith("TILTFE_SOLVER = 'pardiso' cannot be used")
+    finally:
+        monkeypatch.undo()
+        linsolve.pardiso_problem.cache_clear()
+
+
 def test_material_parameter_errors_name_the_value():
     with pytest.raises(MaterialParameterError, match=r"nu = 0\.5"):
         LinearElastic(1e4, 0.5)

@@ -47,7 +47,7 @@ def _cmd_info(args: argparse.Namespace) -> int:
     import scipy
 
     from femcore import __version__
-    from femcore.linsolve import available_backends, preferred_backend
+    from femcore.linsolve import available_backends, pardiso_problem, preferred_backend
     from meshing import gmsh_version as _gmsh_version
 
     try:
@@ -59,6 +59,8 @@ def _cmd_info(args: argparse.Namespace) -> int:
           f"scipy {scipy.__version__}, gmsh {gmsh_version}")
     print(f"linear solver backends: {', '.join(available_backends())} "
           f"(in use: {preferred_backend()}; TILTFE_SOLVER picks one)")
+    if pardiso_problem() is not None:
+        print(f"  PARDISO: {pardiso_problem()}")
     print()
     print(CAUTION)
     return EXIT_OK
