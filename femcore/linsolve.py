@@ -29,7 +29,8 @@ import scipy.sparse.linalg as spla
 from numpy.typing import NDArray
 
 __all__ = ["solve", "factorize", "available_backends", "SolverError", "STATS", "reset_stats",
-           "BACKENDS", "use_backend", "preferred_backend", "check_backend_name"]
+           "BACKENDS", "use_backend", "preferred_backend", "check_backend_name",
+           "environment_problem", "pardiso_problem"]
 
 #: the names a backend may be asked for by
 BACKENDS = ("auto", "superlu", "pardiso")
@@ -77,7 +78,17 @@ def check_backend_name(name: str, where: str = "backend") -> str | None:
     return None
 
 
-_PREFERRED = {"backend": os.environ.get("TILTFE_SOLVER", "auto").strip().lower() or "auto"}
+def _environment_backend() -> str:
+    return os.environ.get("TILTFE_SOLVER", "auto").strip().lower() or "auto"
+
+
+_PREFERRED = {"backend": _environment_backend()}
+
+
+def environment_problem() -> str | None:
+    """What is wrong with the ``TILTFE_SOLVER`` environment variable (as it is now), if
+    anything."""
+    return check_backend_name(_environment_backend(), "TILTFE_SOLVER")
 
 
 def preferred_backend() -> str:
@@ -100,12 +111,12 @@ def use_backend(backend: str):
 
 
 def _resolve(backend: str) -> str:
+    where = "backend"
     if backend == "auto":
-        backend = _PREFERRED["backend"]
+        backend, where = _PREFERRED["backend"], "TILTFE_SOLVER"
         if backend == "auto":
             return "pardiso" if "pardiso" in available_backends() else "superlu"
-    problem = check_backend_name(backend, "TILTFE_SOLVER" if backend == _PREFERRED["backend"]
-                                 else "backend")
+    problem = check_backend_name(backend, where)
     if problem:
         raise ValueError(problem)
     return backend
@@ -236,11 +247,16 @@ def _release_patterns() -> None:
         _PATTERNS.pop().release()
 
 
-def _pattern_for(A: sp.spmatrix) -> _PardisoPattern:
+def _known_pattern(A: sp.spmatrix) -> _PardisoPattern | None:
+    """The handle of ``A``'s sparsity pattern (made the most recent one), or None."""
     for k, h in enumerate(_PATTERNS):
         if h.matches(A):
             _PATTERNS.append(_PATTERNS.pop(k))
             return h
+    return None
+
+
+def _new_pattern(A: sp.spmatrix) -> _PardisoPattern:
     h = _PardisoPattern(A)
     _PATTERNS.append(h)
     if len(_PATTERNS) > 4:
@@ -254,15 +270,11 @@ class _Pardiso:
     refactorized since (e.g. a kept factorization after a newer one) refactorizes its own
     numbers before it solves, so every solve is with the matrix it was made for."""
 
-    def __init__(self, A: sp.spmatrix) -> None:
-        A = A if sp.isspmatrix_csc(A) or sp.isspmatrix_csr(A) else sp.csc_matrix(A)
-        if A.nnz == 0 or not np.diff(A.indptr).all():
-            raise SolverError("the stiffness matrix is singular: it has an empty row or "
-                              "column (a DOF without stiffness); check supports and constraints")
-        if not A.has_sorted_indices:
-            A = A.sorted_indices()
+    def __init__(self, A: sp.spmatrix, handle: _PardisoPattern | None = None) -> None:
+        """``A`` CSC or CSR with sorted indices (:func:`_compressed`); ``handle`` its
+        pattern's handle when known."""
         self._data = np.ascontiguousarray(A.data, dtype=np.float64)
-        self._h = _pattern_for(A)
+        self._h = handle if handle is not None else _known_pattern(A) or _new_pattern(A)
         perturbed = self._h.factor(self, self._data)
         if perturbed:
             raise SolverError(
@@ -273,6 +285,16 @@ class _Pardiso:
         if self._h.owner is not self:
             self._h.factor(self, self._data)
         return self._h.solve(self._data, b)
+
+
+def _compressed(A: sp.spmatrix) -> sp.spmatrix:
+    """``A`` as CSC (or CSR as given) with sorted indices, refused when a row or column is
+    empty (PARDISO would crash on it)."""
+    A = A if sp.isspmatrix_csc(A) or sp.isspmatrix_csr(A) else sp.csc_matrix(A)
+    if A.nnz == 0 or not np.diff(A.indptr).all():
+        raise SolverError("the stiffness matrix is singular: it has an empty row or "
+                          "column (a DOF without stiffness); check supports and constraints")
+    return A if A.has_sorted_indices else A.sorted_indices()
 
 
 #: signatures of sparsity patterns factorized once (by SuperLU) under the PARDISO backend
@@ -289,9 +311,10 @@ def _pardiso_or_first_sight(A: sp.spmatrix):
     factorizations' worth): a pattern seen for the first time is factorized by SuperLU (a
     one-off solve: the elastic 3D solves, a calibration, the dynamic analysis), from the
     second time on by PARDISO with the analysis kept (a Newton run)."""
-    A = A if sp.isspmatrix_csc(A) or sp.isspmatrix_csr(A) else sp.csc_matrix(A)
-    if any(h.matches(A) for h in _PATTERNS):
-        return _Pardiso(A)
+    A = _compressed(A)
+    handle = _known_pattern(A)
+    if handle is not None:
+        return _Pardiso(A, handle)
     key = _signature(A)
     if key in _SEEN:
         _SEEN.pop(key)

@@ -398,21 +398,11 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _solver_env_problem() -> str | None:
-    """What is wrong with the TILTFE_SOLVER environment variable, if anything."""
-    import os
-
-    value = os.environ.get("TILTFE_SOLVER")
-    if value is None:
-        return None
-    from femcore.linsolve import check_backend_name
-
-    return check_backend_name(value.strip().lower() or "auto", "TILTFE_SOLVER")
-
-
 def main(argv: list[str] | None = None) -> int:
     argv = sys.argv[1:] if argv is None else list(argv)
-    problem = _solver_env_problem()
+    from femcore.linsolve import environment_problem
+
+    problem = environment_problem()
     if problem:
         print(f"tiltfe: invalid environment\n  {problem}", file=sys.stderr)
         return EXIT_INPUT
