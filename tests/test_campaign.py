@@ -645,6 +645,12 @@ def test_export_has_dynamic_and_requirement_columns(springs_stores, tmp_path):
         assert t["req.static_stiffness.passed"] == str(k_static >= 2.0e6)
         assert float(t["req.dynamic_stiffness.margin"]) == pytest.approx(k_dyn / 1.0e7 - 1,
                                                                          rel=1e-9)
+        # the material quantities under their own names (hand values: counts x lengths)
+        n = sum(ring["count"] for ring in r["inputs"]["piles"]["rings"])
+        assert int(t["pile_count"]) == n == direct["quantities"]["pile_count"]
+        assert float(t["pile_total_length"]) == pytest.approx(
+            n * r["inputs"]["piles"]["length"], rel=1e-12)
+        assert r["quantities"] == direct["quantities"] and t["cost_index"] == ""
         assert k_dyn > k_static  # small-strain moduli G0 are stiffer than the operational E
         for i in (0, 10, 39):
             assert float(t[f"theta_{i:02d}"]) == pytest.approx(

@@ -18,7 +18,7 @@ from typing import Annotated, Any, Literal
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 __all__ = ["AnalysisSettings", "SoilLayer", "Soil", "Cap", "PileRing", "Piles", "Loading",
-           "Requirements", "Keypoints", "DesignStrength", "Design", "ROTATION_CAP",
+           "Requirements", "Keypoints", "DesignStrength", "UnitRates", "Design", "ROTATION_CAP",
            "design_from_dict", "load_design",
            "DesignError", "demo_design", "SCHEMA_VERSION"]
 
@@ -351,6 +351,17 @@ class Keypoints(_Model):
     moments: list[Pos] = Field([], description="moments for secant stiffness, kNm")
 
 
+class UnitRates(_Model):
+    """Unit rates for a cost index (any one currency or a relative unit: the index is the
+    sum of each rate times its quantity, for comparing variants, not a cost estimate)."""
+
+    concrete: NonNeg = Field(0.0, description="per m3 of cap and pedestal concrete (placed, "
+                             "with its reinforcement if the rate includes it)")
+    pile_metre: NonNeg = Field(0.0, description="per m of pile (along its axis)")
+    pile_concrete: NonNeg = Field(0.0, description="per m3 of pile concrete")
+    pile_each: NonNeg = Field(0.0, description="per pile (a fixed cost per pile)")
+
+
 class Design(_Model):
     """A piled wind-turbine foundation and its load case."""
 
@@ -365,6 +376,8 @@ class Design(_Model):
     design_strength: DesignStrength | None = Field(
         None, description="partial factors for a second pushover with design strengths; the "
         "capacity requirement is then checked against its capacity")
+    unit_rates: UnitRates | None = Field(
+        None, description="unit rates for the cost index of the quantities (optional)")
 
     @property
     def pile_tip_depth(self) -> float:

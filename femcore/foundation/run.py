@@ -9,10 +9,13 @@ Nothing here prints or writes files.
 
 from __future__ import annotations
 
+import functools
 import platform
+import subprocess
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 
@@ -29,6 +32,7 @@ from .keypoints import (
     moment_at_rotation,
     ultimate_plateau,
 )
+from .quantities import quantities
 from .records import (
     CAUTION,
     DynamicStiffness,
@@ -44,7 +48,7 @@ from .strength import factored_design
 __all__ = ["Result", "run_design", "run_built", "run_harmonic", "prepare",
            "RESULT_SCHEMA_VERSION"]
 
-RESULT_SCHEMA_VERSION = "4"
+RESULT_SCHEMA_VERSION = "5"
 
 
 def _clean(obj):
@@ -65,6 +69,23 @@ def _clean(obj):
     return obj
 
 
+@functools.lru_cache(maxsize=1)
+def source_revision() -> str | None:
+    """The git revision (short hash, ``+`` when the tree has uncommitted changes) of the
+    tiltfe source in use; None outside a git checkout (an installed wheel)."""
+    here = Path(__file__).resolve().parent
+    try:
+        rev = subprocess.run(["git", "rev-parse", "--short", "HEAD"], capture_output=True,
+                             text=True, cwd=here, timeout=5)
+        if rev.returncode != 0 or not rev.stdout.strip():
+            return None
+        dirty = subprocess.run(["git", "status", "--porcelain", "--untracked-files=no"],
+                               capture_output=True, text=True, cwd=here, timeout=5)
+        return rev.stdout.strip() + ("+" if dirty.stdout.strip() else "")
+    except (OSError, subprocess.SubprocessError):
+        return None
+
+
 def versions() -> dict[str, str]:
     """Versions of tiltfe and the numerical libraries (provenance of every result)."""
     import scipy
@@ -73,7 +94,8 @@ def versions() -> dict[str, str]:
 
     from ..linsolve import preferred_backend
 
-    return {"tiltfe": __version__, "python": platform.python_version(),
+    return {"tiltfe": __version__, "source_revision": source_revision(),
+            "python": platform.python_version(),
             "numpy": np.__version__, "scipy": scipy.__version__, "gmsh": gmsh_version(),
             "linear_solver": preferred_backend()}
 
@@ -99,10 +121,14 @@ class Result:
     pushover: StepResult | None = field(default=None, repr=False)
     design: Design | None = field(default=None, repr=False)
     harmonic: object | None = field(default=None, repr=False)  # the HarmonicBuilt model
+    quantities: dict | None = None  # material quantities (None: from the design)
+    source: dict | None = None  # the input file: {"file", "sha256"} (set by the CLI)
 
     def __post_init__(self) -> None:
         if self.design is None and self.built is not None:
             self.design = self.built.design
+        if self.quantities is None and self.design is not None:
+            self.quantities = quantities(self.design)
 
     def to_dict(self) -> dict:
         return _clean({
@@ -115,7 +141,8 @@ class Result:
             "design_strength": self.design_strength,
             "requirements": {k: v.as_dict() for k, v in self.requirements.items()},
             "piles": [p.as_dict() for p in self.piles], "model": self.model,
-            "stages": self.stages, "timings": self.timings, "caution": CAUTION})
+            "stages": self.stages, "timings": self.timings, "quantities": self.quantities,
+            "input": self.source, "caution": CAUTION})
 
 
 def _slice_rule(built: BuiltModel) -> str:

@@ -27,7 +27,6 @@ from __future__ import annotations
 import functools
 import os
 import signal
-import subprocess
 import sys
 import threading
 import time
@@ -115,7 +114,7 @@ def record_from_result(d: dict, attempts: int, seconds: float,
         dynamic=d.get("dynamic"),
         curve=_curve_on_grid(d.get("curve") or {}, rotation_max),
         piles=d.get("piles"), timings=d.get("timings"),
-        model=_model_summary(d.get("model") or {}))
+        model=_model_summary(d.get("model") or {}), quantities=d.get("quantities"))
 
 
 def _retry_helps(result: dict) -> bool:
@@ -163,6 +162,7 @@ def _run_sample(design_data: dict, time_limit: float, retries: int, dynamic: boo
     attempts = 0
     try:
         from femcore.foundation.design import DesignError, design_from_dict
+        from femcore.foundation.quantities import quantities
         from femcore.foundation.run import run_design
 
         try:
@@ -176,6 +176,13 @@ def _run_sample(design_data: dict, time_limit: float, retries: int, dynamic: boo
         def guard(_rec: Any) -> None:
             if time.perf_counter() - t0 > time_limit:
                 raise _Timeout
+
+        q = quantities(design)  # from the geometry: kept whatever the run's outcome
+
+        def with_q(rec: RunRecord) -> RunRecord:
+            if rec.quantities is None:
+                rec.quantities = q
+            return rec
 
         first = design.loading.initial_increment
         floor = min(first, _MIN_INCREMENT)
@@ -192,15 +199,16 @@ def _run_sample(design_data: dict, time_limit: float, retries: int, dynamic: boo
             try:
                 result = run_design(d, progress=guard, dynamic=dynamic).to_dict()
             except _Timeout:
-                return RunRecord("timeout", f"over the time limit of {time_limit:g} s "
-                                 f"(attempt {attempts})", attempts, time.perf_counter() - t0)
+                return with_q(RunRecord("timeout", f"over the time limit of {time_limit:g} s "
+                                 f"(attempt {attempts})", attempts,
+                                 time.perf_counter() - t0))
             except DesignError as exc:
                 return RunRecord("invalid_input", "; ".join(exc.problems), attempts,
                                  time.perf_counter() - t0)
             if result.get("status") != "diverged" or not _retry_helps(result):
                 break
-        return record_from_result(result, attempts, time.perf_counter() - t0,
-                                  design.loading.rotation_max)
+        return with_q(record_from_result(result, attempts, time.perf_counter() - t0,
+                                         design.loading.rotation_max))
     except Exception as exc:  # recorded, never lost: the campaign goes on
         return RunRecord("error", f"{type(exc).__name__}: {exc}", attempts,
                          time.perf_counter() - t0)
@@ -217,11 +225,9 @@ def _versions() -> tuple[str, str | None, str]:
         gmsh = gmsh_version()
     except Exception as exc:  # provenance only: a missing gmsh does not stop a campaign
         gmsh = f"unavailable ({type(exc).__name__})"
-    try:
-        git = subprocess.run(["git", "rev-parse", "--short", "HEAD"], capture_output=True,
-                             text=True, cwd=Path(__file__).parent, timeout=5).stdout.strip()
-    except Exception:  # pragma: no cover - no git
-        git = ""
+    from femcore.foundation.run import source_revision
+
+    git = source_revision()
     return __version__, git or None, gmsh
 
 

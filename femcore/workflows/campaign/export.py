@@ -5,6 +5,11 @@ Columns, in this order:
 * ``sample_id``, ``set`` (train | holdout) and ``u0`` ... ``u{d-1}`` (the unit-cube point);
 * one column per sampled and per derived design path (e.g. ``cap.diameter``), the value the
   sample's design had;
+* the material quantities of the sample's design, under their own names (as in
+  ``result.json``): ``cap_concrete_volume``, ``pedestal_concrete_volume`` (m3),
+  ``pile_count``, ``pile_total_length`` (m, along the pile axes), ``pile_concrete_volume``
+  (m3) and ``cost_index`` (empty without ``[unit_rates]`` in the design); kept for samples
+  whose run failed or timed out too (they come from the geometry);
 * ``status``, ``message``, ``attempts``, ``seconds`` (wall time of the run);
 * ``kp.<name>`` for each key point (its value, in its own unit: kNm, kNm/rad, rad);
 * ``dynamic_stiffness`` (kNm/rad; empty when not computed or switched off);
@@ -36,6 +41,8 @@ the dynamic stiffness record's details (in the store's ``piles`` and ``dynamic``
 from __future__ import annotations
 
 from pathlib import Path
+
+from femcore.foundation.quantities import QUANTITY_UNITS
 
 from .paths import SpaceError, get_path
 from .store import RunRecord, Store
@@ -72,6 +79,8 @@ def export_rows(store_path: str | Path) -> tuple[list[str], list[dict]]:
                 row[p] = get_path(r["inputs"] or {}, p)
             except SpaceError:
                 row[p] = None
+        for k in QUANTITY_UNITS:
+            row[k] = (rec.quantities or {}).get(k)
         row.update({"status": rec.status, "message": rec.message, "attempts": rec.attempts,
                     "seconds": rec.seconds})
         for k, v in (rec.keypoints or {}).items():
@@ -110,6 +119,7 @@ def export_rows(store_path: str | Path) -> tuple[list[str], list[dict]]:
                         if isinstance(p.get("row"), int)})
     n_grid = max((len((rec.curve or {}).get("rotation", [])) for rec in records), default=0)
     cols = (["sample_id", "set"] + [f"u{i}" for i in range(n_unit)] + paths
+            + [k for k in QUANTITY_UNITS if k not in paths]
             + ["status", "message", "attempts", "seconds"] + [f"kp.{k}" for k in kp_names]
             + ["dynamic_stiffness"]
             + [f"req.{n}.{part}" for n in req_names for part in ("value", "passed", "margin")]

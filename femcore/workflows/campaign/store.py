@@ -47,7 +47,7 @@ __all__ = ["RunStatus", "FINISHED", "Requirement", "RunRecord", "Store", "StoreE
 
 RunStatus = Literal["ok", "censored", "diverged", "invalid_input", "timeout", "error"]
 FINISHED: tuple[str, ...] = ("ok", "censored", "diverged", "invalid_input", "timeout", "error")
-LAYOUT = 2  # 1: before the requirements / dynamic columns
+LAYOUT = 3  # 1: before the requirements / dynamic columns; 2: before quantities
 
 
 class Requirement(TypedDict):
@@ -76,6 +76,7 @@ class RunRecord:
     piles: list[dict] | None = None
     timings: dict | None = None
     model: dict | None = None
+    quantities: dict | None = None  # material quantities (m3, m, counts), see quantities.py
 
     @property
     def dynamic_stiffness(self) -> float | None:
@@ -107,13 +108,15 @@ class RunRecord:
         return asdict(self)
 
 
-_JSON = {"keypoints", "requirements", "dynamic", "curve", "piles", "timings", "model"}
+_JSON = {"keypoints", "requirements", "dynamic", "curve", "piles", "timings", "model",
+         "quantities"}
 _COLUMNS = [  # name, SQL type (in the order of the layout-1 table, new columns last)
     ("sample_id", "INTEGER PRIMARY KEY"), ("sample_set", "TEXT"), ("unit", "TEXT"),
     ("inputs", "TEXT"), ("status", "TEXT"), ("message", "TEXT"), ("attempts", "INTEGER"),
     ("seconds", "REAL"), ("keypoints", "TEXT"), ("curve", "TEXT"), ("piles", "TEXT"),
     ("timings", "TEXT"), ("model", "TEXT"), ("provenance", "TEXT"), ("finished_at", "REAL"),
-    ("requirements", "TEXT"), ("dynamic", "TEXT"), ("dynamic_stiffness", "REAL")]
+    ("requirements", "TEXT"), ("dynamic", "TEXT"), ("dynamic_stiffness", "REAL"),
+    ("quantities", "TEXT")]
 _DECODE = _JSON | {"unit", "inputs", "provenance"}
 
 
