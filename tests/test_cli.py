@@ -7,6 +7,7 @@ the same design (1e-9 relative).
 """
 
 import copy
+import hashlib
 import json
 import subprocess
 import sys
@@ -41,6 +42,9 @@ def test_run_end_to_end_matches_python_api(tmp_path, capsys):
         assert (out / name).stat().st_size > 0, name
     data = json.loads((out / "result.json").read_text())
     result_file_model().model_validate(data)  # the file matches its schema
+    # provenance: the input file's name and the SHA-256 of its bytes (FIPS 180-4 via hashlib)
+    assert data["input"] == {"file": SMALL.name,
+                             "sha256": hashlib.sha256(SMALL.read_bytes()).hexdigest()}
     api = run_design(load_design(SMALL))
     assert data["keypoints"]["initial_stiffness"]["value"] == pytest.approx(
         api.keypoints["initial_stiffness"].value, rel=1e-9)

@@ -264,6 +264,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
     result = run_harmonic(design, progress=progress) if harmonic else \
         run_built(built, progress=progress, elastic=elastic)
     t_analysis = time.perf_counter() - t0
+    result.source = _input_source(args.design)
     if result.curve:
         write_curve_csv(result, out / "curve.csv")
     if harmonic:
@@ -279,6 +280,14 @@ def _cmd_run(args: argparse.Namespace) -> int:
     else:
         print(f"{design.name}: {result.status}; results in {out}/")
     return EXIT_FAILED if result.status == "diverged" else EXIT_OK
+
+
+def _input_source(path: str) -> dict[str, str]:
+    """The design file as run: its name and the SHA-256 of its bytes (provenance)."""
+    import hashlib
+
+    p = Path(path)
+    return {"file": p.name, "sha256": hashlib.sha256(p.read_bytes()).hexdigest()}
 
 
 def _moment(rec, built) -> float:

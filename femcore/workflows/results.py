@@ -199,7 +199,7 @@ def result_file_model():
 
     class ResultFile(BaseModel):
         model_config = ConfigDict(extra="forbid")
-        schema_version: Literal["4"]
+        schema_version: Literal["5"]
         design_schema_version: str
         status: Literal["ok", "censored", "diverged"]
         message: str
@@ -214,6 +214,8 @@ def result_file_model():
         model: dict
         stages: list[dict]
         timings: dict
+        quantities: dict[str, float | int | None] | None
+        input: dict[str, str] | None
         caution: str
 
     return ResultFile
