@@ -136,24 +136,24 @@ def _cmd_check(args: argparse.Namespace) -> int:
 
 
 def _print_summary(result, out: Path, t_total: float) -> None:
+    """The run's summary in the report's units and layout (GNm/rad, MNm, mrad, kN):
+    status, requirement table, key points, material quantities, timings."""
+    from femcore.workflows import summary as sm
+
     print()
     print(f"status        {result.status}  ({result.message})")
-    print("key points (3D estimates)")
-    for kp in result.keypoints.values():
-        if kp.value is None:
-            continue
-        if kp.unit == "kNm/rad":
-            val = f"{kp.value / 1e6:10.3f} GNm/rad"
-        elif kp.unit == "kNm":
-            val = f"{kp.value / 1e3:10.2f} MNm    "
-        else:
-            val = f"{kp.value:10.4g} {kp.unit:7s}"
-        print(f"  {kp.name:28s} {val}  {kp.method}")
+    if result.requirements:
+        print("requirement checks")
+        print("\n".join(sm.text_table(sm.REQUIREMENT_HEADER,
+                                      sm.requirement_rows(result.requirements, result.design,
+                                                          plain=True),
+                                      "lrrrr", wrap={0: 40, 1: 24, 2: 24})))
+    rows = sm.keypoint_rows(result, plain=True)
+    if rows:
+        print("key points (3D estimates)" if result.model.get("geometry") == "plane_strain"
+              else "key points")
+        print("\n".join(sm.text_table(sm.KEYPOINT_HEADER, rows, "lrl", wrap={2: 52})))
     dyn = result.dynamic
-    if dyn is not None:
-        print(f"  {'dynamic_stiffness':28s} "
-              + (f"{dyn.value / 1e6:10.3f} GNm/rad  {dyn.method}, {dyn.moduli}" if dyn.value
-                 else f"{'-':>10s}          {dyn.reason}"))
     slice_rows = [(k, v.extra.get("slice")) for k, v in result.keypoints.items()
                   if k == "initial_stiffness"]
     slice_rows += [("dynamic_stiffness", dyn.slice_value)] if dyn is not None and \
@@ -161,26 +161,11 @@ def _print_summary(result, out: Path, t_total: float) -> None:
     slice_rows = [(k, v) for k, v in slice_rows if v]
     if slice_rows:
         print("  plane-strain slice values beside the harmonic ones: " + ", ".join(
-            f"{k} {v / 1e6:.3f} GNm/rad" for k, v in slice_rows))
-    ds = result.design_strength
-    if ds is not None:
-        ult_d = (ds["keypoints"].get("ultimate") or {}).get("value")
-        ult_c = result.keypoints["ultimate"].value if "ultimate" in result.keypoints else None
-        f = ds["factors"]
-        ratio = f"  ({ult_d / ult_c:.3f} of the characteristic)" if ult_d and ult_c else ""
-        cens = " (censored: a lower bound)" if (ds["keypoints"].get("ultimate") or {}).get(
-            "extra", {}).get("censored") else ""
-        print(f"design strengths (factors s_u {f['su']:g}, c' {f['c']:g}, tan phi' "
-              f"{f['tan_phi']:g}, piles {f['pile_resistance']:g}): {ds['status']}")
-        print(f"  {'ultimate (factored)':28s} "
-              + (f"{ult_d / 1e3:10.2f} MNm{cens}{ratio}" if ult_d is not None else "-"))
-    if result.requirements:
-        print("requirement checks")
-        for name, chk in result.requirements.items():
-            margin = "" if chk.margin is None else f"   margin {100 * chk.margin:+7.1f} %"
-            if chk.extra.get("lower_bound") is not None:
-                margin = f"   capacity at least {chk.extra['lower_bound'] / 1e3:.2f} MNm"
-            print(f"  {name:28s} {chk.verdict:11s}{margin}".rstrip())
+            f"{k} {sm.num(v / 1e6)} GNm/rad" for k, v in slice_rows))
+    if result.quantities:
+        print("material quantities")
+        print("\n".join(sm.text_table(sm.QUANTITY_HEADER,
+                                      sm.quantity_rows(result.quantities, plain=True), "lrl")))
     tm = result.timings
     if result.model.get("geometry") == "harmonic":
         extra = (f", design-strength pushover {tm['design_strength_s']:.1f} s"

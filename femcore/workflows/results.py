@@ -25,8 +25,8 @@ from femcore.foundation.records import (
 from femcore.foundation.run import RESULT_SCHEMA_VERSION, Result
 from femcore.model import SolidBlock
 
-__all__ = ["write_result_json", "write_curve_csv", "write_fields", "result_file_model",
-           "RESULT_SCHEMA_VERSION", "CAUTION"]
+__all__ = ["write_result_json", "harmonic_yielded_fractions", "write_curve_csv", "write_fields",
+           "result_file_model", "RESULT_SCHEMA_VERSION", "CAUTION"]
 
 
 def write_result_json(result: Result, path: Path) -> Path:
@@ -100,6 +100,22 @@ def write_fields(result: Result, path: Path) -> Path | None:
     return path
 
 
+def harmonic_yielded_fractions(result: Result) -> tuple[np.ndarray, np.ndarray]:
+    """(theta of the planes, yielded fraction of each cell's points on each plane, shape
+    (planes, cells)) at the end of a harmonic pushover."""
+    from femcore.harmonic_plastic import HarmonicMohrCoulomb
+
+    hb = result.harmonic
+    theta = hb.planes.theta
+    yielded = np.zeros((theta.size, hb.hf.model.mesh.n_cells))
+    for blk, st in zip(hb.model.blocks, result.pushover.states, strict=True):
+        if isinstance(blk, HarmonicMohrCoulomb):
+            cells = np.asarray(hb.hf.model.blocks[[i for i, b in hb.model.nonlinear.items()
+                                                   if b is blk][0]].cells)
+            yielded[:, cells] = st.yielded.mean(axis=2)
+    return theta, yielded
+
+
 def write_harmonic_fields(result: Result, path: Path) -> Path | None:
     """The harmonic solution at the end of the pushover on its circumferential planes, in
     3D: every plane theta_k of [0, pi] and its mirror -theta_k (the model is symmetric about
@@ -109,8 +125,6 @@ def write_harmonic_fields(result: Result, path: Path) -> Path | None:
     axial force (kN, compression positive)."""
     import meshio
 
-    from femcore.harmonic_plastic import HarmonicMohrCoulomb
-
     hb = result.harmonic
     if hb is None or result.pushover is None or not result.pushover.records:
         return None
@@ -118,13 +132,7 @@ def write_harmonic_fields(result: Result, path: Path) -> Path | None:
     n1, nn = hb.model.n1, mesh.n_nodes
     U = np.asarray(result.pushover.u).reshape(-1, n1)  # (h, n1)
     harm = np.array(hb.harmonics)
-    theta = hb.planes.theta
-    yielded = np.zeros((theta.size, mesh.n_cells))
-    for blk, st in zip(hb.model.blocks, result.pushover.states, strict=True):
-        if isinstance(blk, HarmonicMohrCoulomb):
-            cells = np.asarray(hb.hf.model.blocks[[i for i, b in hb.model.nonlinear.items()
-                                                   if b is blk][0]].cells)
-            yielded[:, cells] = st.yielded.mean(axis=2)
+    theta, yielded = harmonic_yielded_fractions(result)
     sub = mesh.element.sub_triangles
     tris = mesh.cells[:, sub].reshape(-1, 3)
     ns = sub.shape[0]
