@@ -9,6 +9,7 @@ the same design (1e-9 relative).
 import copy
 import hashlib
 import json
+import re
 import subprocess
 import sys
 
@@ -26,6 +27,7 @@ from femcore.foundation.design import Design, demo_design, load_design
 from femcore.foundation.run import run_design
 from femcore.workflows import cli
 from femcore.workflows.results import result_file_model
+from femcore.workflows.summary import num
 
 ROOT = Path(__file__).resolve().parents[1]
 SMALL = ROOT / "examples" / "small_group_springs.toml"
@@ -37,7 +39,7 @@ def test_run_end_to_end_matches_python_api(tmp_path, capsys):
     code = cli.main(["run", str(SMALL), "--out", str(out)])
     assert code == 0
     printed = capsys.readouterr().out
-    assert "Caution" in printed and "initial_stiffness" in printed
+    assert "Caution" in printed and "Initial rotational stiffness" in printed
     for name in ("result.json", "curve.csv", "fields.vtu", "report.pdf", "moment_rotation.png"):
         assert (out / name).stat().st_size > 0, name
     data = json.loads((out / "result.json").read_text())
@@ -48,6 +50,10 @@ def test_run_end_to_end_matches_python_api(tmp_path, capsys):
     api = run_design(load_design(SMALL))
     assert data["keypoints"]["initial_stiffness"]["value"] == pytest.approx(
         api.keypoints["initial_stiffness"].value, rel=1e-9)
+    # the summary prints it in GNm/rad to four significant digits
+    k0 = num(api.keypoints["initial_stiffness"].value / 1e6)
+    assert re.search(rf"Initial rotational stiffness\s+{re.escape(k0)} GNm/rad", printed), \
+        printed
     assert np.allclose(data["curve"]["moment"], api.curve["moment"], rtol=1e-9)
     csv = (out / "curve.csv").read_text().splitlines()
     assert csv[0].startswith("rotation [rad]") and len(csv) == len(api.curve["rotation"]) + 1
@@ -265,6 +271,11 @@ def test_harmonic_run_end_to_end(tmp_path, capsys):
     assert res["requirements"]["dynamic_stiffness"]["passed"] is not None
     assert res["elastic"]["K_R"] > 0 and res["dynamic"]["method"].startswith("harmonic")
     assert (out / "curve.csv").stat().st_size > 0 and res["design_strength"]["keypoints"]
+    # the note of a harmonic run: its model section, the section figures and all captions
+    pypdf = pytest.importorskip("pypdf")
+    text = "\n".join(p.extract_text() for p in pypdf.PdfReader(str(out / "report.pdf")).pages)
+    assert re.findall(r"Figure (\d+)\. ", text) == ["1", "2", "3", "4", "5"]
+    assert "circumferential harmonics 0-2" in text and "planes 0 and 180" in text
 
 
 def test_harmonic_with_a_two_pile_ring_is_refused(tmp_path, capsys):
