@@ -340,6 +340,50 @@ def _cmd_campaign_export(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _cmd_campaign_select(args: argparse.Namespace) -> int:
+    from femcore.foundation.quantities import QUANTITY_UNITS
+    from femcore.workflows import summary as sm
+    from femcore.workflows.campaign import SpaceError
+    from femcore.workflows.campaign.select import select, write_selection
+
+    if args.top is not None and args.top < 1:
+        raise InputProblem(f"--top {args.top}: show at least 1 row (1 or more)")
+    try:
+        columns, rows, summ = select(args.store, by=args.by, min_margin=args.min_margin,
+                                     requirements=args.requirements)
+        if args.out:
+            write_selection(args.out, columns, rows)
+    except SpaceError as exc:
+        raise InputProblem(str(exc)) from None
+    unit = QUANTITY_UNITS[args.by]
+    print(f"{summ['feasible']} of {summ['runs']} runs meet every requirement "
+          f"({summ['requirements']}"
+          + (f", margin at least {100 * args.min_margin:g} %" if args.min_margin else "")
+          + f"), ranked by {args.by}" + (f" ({unit})" if unit != "-" else "") + ":")
+    if summ["reasons"]:
+        print("  not feasible: " + ", ".join(f"{n} {why}" for why, n in
+                                             sorted(summ["reasons"].items(),
+                                                    key=lambda kv: -kv[1])))
+    shown = rows[: args.top] if args.top else rows[:20]
+    inputs = summ["parameters"]
+    if shown:
+        header = ("rank", "sample", args.by, *inputs, "least margin")
+        table = [(str(i), str(r["sample_id"]),
+                  str(r[args.by]) if args.by == "pile_count" else sm.num(r[args.by]),
+                  *[sm.num(r[c]) if isinstance(r[c], float) else str(r[c]) for c in inputs],
+                  "-" if r["least_margin"] is None else f"{100 * r['least_margin']:+.1f} %")
+                 for i, r in enumerate(shown, start=1)]
+        print("\n".join(sm.text_table(header, table, "rr" + "r" * (len(header) - 2))))
+        if len(rows) > len(shown):
+            print(f"  ... {len(rows) - len(shown)} more (--top N shows more; --out writes "
+                  "them all)")
+    if args.out:
+        print(f"wrote {args.out} ({len(rows)} rows: inputs, quantities, key points, checks)")
+    print()
+    print(CAUTION)
+    return EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     from femcore import __version__
 
@@ -387,6 +431,21 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("store")
     c.add_argument("--out", required=True, help="TABLE.csv or TABLE.parquet")
     c.set_defaults(func=_cmd_campaign_export)
+    c = csub.add_parser("select", help="the runs that meet every requirement, ranked by a "
+                        "material quantity (smallest first)")
+    c.add_argument("store")
+    c.add_argument("--by", default="pile_concrete_volume", metavar="QUANTITY",
+                   help="rank by this quantity: cap_concrete_volume, pedestal_concrete_volume,"
+                        " pile_total_length, pile_concrete_volume (default), cost_index, "
+                        "pile_count")
+    c.add_argument("--min-margin", type=float, default=0.0, metavar="FRACTION",
+                   help="every check's margin at least this (0.1 for 10 %%; default 0)")
+    c.add_argument("--requirements", metavar="FILE",
+                   help="check against the [requirements] of this file instead of each "
+                        "design's own")
+    c.add_argument("--top", type=int, help="rows to print (default 20)")
+    c.add_argument("--out", metavar="FILE.csv", help="write every feasible run as CSV")
+    c.set_defaults(func=_cmd_campaign_select)
     sub.add_parser("bench", help="validation and performance suite against the baseline "
                    "(tiltfe bench --help)", add_help=False)
     return parser
