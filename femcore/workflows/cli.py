@@ -384,6 +384,19 @@ def _cmd_campaign_select(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _cmd_campaign_explore(args: argparse.Namespace) -> int:
+    from femcore.workflows.campaign import SpaceError
+    from femcore.workflows.campaign.explore import write_explorer
+
+    try:
+        out = write_explorer(args.store, args.out)
+    except SpaceError as exc:
+        raise InputProblem(str(exc)) from None
+    size = out.stat().st_size / 1e6
+    print(f"wrote {out} ({size:.1f} MB, self-contained: open it in any browser, offline)")
+    return EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     from femcore import __version__
 
@@ -446,6 +459,11 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--top", type=int, help="rows to print (default 20)")
     c.add_argument("--out", metavar="FILE.csv", help="write every feasible run as CSV")
     c.set_defaults(func=_cmd_campaign_select)
+    c = csub.add_parser("explore", help="one self-contained HTML page to explore the runs "
+                        "(scatter, thresholds, curves, Pareto plot)")
+    c.add_argument("store")
+    c.add_argument("--out", required=True, metavar="PAGE.html", help="the page to write")
+    c.set_defaults(func=_cmd_campaign_explore)
     sub.add_parser("bench", help="validation and performance suite against the baseline "
                    "(tiltfe bench --help)", add_help=False)
     return parser
