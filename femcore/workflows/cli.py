@@ -397,6 +397,66 @@ def _cmd_campaign_explore(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _cmd_size(args: argparse.Namespace) -> int:
+    from femcore.foundation.design import DesignError
+    from femcore.workflows import summary as sm
+    from femcore.workflows.campaign import SpaceError
+    from femcore.workflows.sizing import size_design, write_sizing
+
+    out = Path(args.out)
+    if out.exists() and not out.is_dir():
+        raise InputProblem(f"--out {out}: exists and is not a folder")
+    paths = [v.split("=", 1)[0].strip() for v in args.vary or []]
+    if not args.quiet:
+        print(f"{'phase':>8s} {'#':>3s}  " + "  ".join(f"{p:>22s}" for p in paths)
+              + f"  {args.minimize:>22s}  verdict")
+    count = [0]
+
+    def progress(rec):
+        count[0] += 1
+        if args.quiet:
+            return
+        vals = "  ".join(f"{rec['values'][p]:22g}" for p in paths)
+        verdict = "feasible" if rec["feasible"] else rec.get("reason", "")
+        q = "-" if rec["quantity"] is None else sm.num(rec["quantity"])
+        print(f"{rec['phase']:>8s} {count[0]:3d}  {vals}  {q:>22s}  {verdict}", flush=True)
+
+    try:
+        result = size_design(args.design, args.vary or [], args.minimize, args.budget,
+                             min_margin=args.min_margin, recheck=not args.no_recheck,
+                             progress=progress)
+        write_sizing(result, out)
+    except DesignError as exc:
+        raise InputProblem("\n".join(exc.problems)) from None
+    except SpaceError as exc:
+        raise InputProblem(str(exc)) from None
+    except OSError as exc:
+        raise InputProblem(f"--out {out}: cannot write ({exc.strerror})") from None
+    best, base = result["best"], result["baseline"]
+    unit = result["settings"]["unit"]
+    unit = "" if unit == "-" else f" {unit}"
+    print()
+    print(f"{result['search_runs']} search runs ({result['search_seconds']:.0f} s), "
+          f"{len(result['recheck'])} re-check(s) with the design's own settings")
+    print("baseline      " + ", ".join(f"{k} = {v:g}" for k, v in base["values"].items())
+          + f": {args.minimize} {sm.num(base['quantity'])}{unit}")
+    if best is None:
+        print("result        no design in the ranges passed every check (widen the ranges, "
+              "raise --budget or --min-margin)")
+    else:
+        saving = 1 - best["quantity"] / base["quantity"] if base["quantity"] else 0.0
+        print("result        " + ", ".join(f"{k} = {v:g}" for k, v in best["values"].items())
+              + f": {args.minimize} {sm.num(best['quantity'])}{unit} "
+              + (f"({100 * saving:.1f} % less than the baseline)" if saving >= 0 else
+                 f"({-100 * saving:.1f} % more than the baseline)")
+              + f", least margin {100 * best['least_margin']:+.1f} % (re-checked)"
+              if best.get("least_margin") is not None else "")
+    print(f"results       {out}/sizing.json, {out}/sizing.pdf")
+    print()
+    print(CAUTION)
+    return EXIT_OK if best is not None else EXIT_FAILED
+
+
 def build_parser() -> argparse.ArgumentParser:
     from femcore import __version__
 
@@ -464,6 +524,26 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("store")
     c.add_argument("--out", required=True, metavar="PAGE.html", help="the page to write")
     c.set_defaults(func=_cmd_campaign_explore)
+    p = sub.add_parser("size", help="search for the design with the least material that "
+                       "meets every requirement (direct FE runs)",
+                       epilog="The search runs the coarse model (T6, coarse mesh) with a "
+                       "margin on every check, then re-checks the winner with the design's "
+                       "own analysis settings.")
+    p.add_argument("design", help="design file (TOML) with its [requirements]")
+    p.add_argument("--vary", action="append", metavar="PATH=LOW:HIGH", required=True,
+                   help="a design value to vary, e.g. piles.length=16:24 or "
+                        "piles.rings.0.count=20:28 (repeat for more)")
+    p.add_argument("--minimize", default="pile_concrete_volume", metavar="QUANTITY",
+                   help="cap_concrete_volume, pedestal_concrete_volume, pile_count, "
+                        "pile_total_length, pile_concrete_volume (default), cost_index")
+    p.add_argument("--budget", type=int, default=40, help="search runs at most (default 40)")
+    p.add_argument("--min-margin", type=float, default=0.05, metavar="FRACTION",
+                   help="margin every check needs in the search (default 0.05 = 5 %%)")
+    p.add_argument("--no-recheck", action="store_true",
+                   help="skip the re-check with the design's own analysis settings")
+    p.add_argument("--out", required=True, help="output folder (sizing.json, sizing.pdf)")
+    p.add_argument("--quiet", action="store_true")
+    p.set_defaults(func=_cmd_size)
     sub.add_parser("bench", help="validation and performance suite against the baseline "
                    "(tiltfe bench --help)", add_help=False)
     return parser
