@@ -71,3 +71,41 @@ def distort(mesh: Mesh, amount: float, seed: int = 1, fixed: np.ndarray | None =
 def nodal(u: np.ndarray, mesh: Mesh) -> np.ndarray:
     """Node displacements (n_nodes, 2) from a full DOF vector."""
     return u[: 2 * mesh.n_nodes].reshape(-1, 2)
+
+
+def springs_space_text(base, size: int = 4, lengths=(12.0, 15.0), run: str = "",
+                       seed: int = 5) -> str:
+    """A small space file on a springs-only base design (about 0.1 s per run): cap diameter,
+    top s_u and pile length sampled; the ring follows the cap edge at about 5 pile widths of
+    spacing; a dynamic stiffness requirement of 1e7 kNm/rad."""
+    values = ", ".join(f"{v:g}" if v != int(v) else f"{v:.1f}" for v in lengths)
+    return f'''base = "{base.as_posix()}"
+[[parameter]]
+path = "cap.diameter"
+low = 7.6
+high = 9.0
+[[parameter]]
+path = "soil.layers.0.su"
+distribution = "loguniform"
+low = 15.0
+high = 25.0
+[[parameter]]
+path = "piles.length"
+distribution = "choice"
+values = [{values}]
+[[derived]]
+path = "piles.rings.0.radius"
+formula = "cap.diameter / 2 - 0.8"
+[[derived]]
+path = "piles.rings.0.count"
+formula = "round(2 * pi * piles.rings.0.radius / (5 * piles.width))"
+[[derived]]                     # not in the base file: a default of the design schema
+path = "requirements.dynamic_stiffness_min"
+formula = "1.0e7"
+[sampling]
+method = "sobol"
+size = {size}
+seed = {seed}
+[run]
+{run}
+'''

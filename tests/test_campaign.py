@@ -23,7 +23,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from conftest import toml_text
+from conftest import springs_space_text, toml_text
 
 from benchmarks.faults import alive_of, children_of, store_rows
 from femcore.foundation.design import demo_design, design_from_dict, load_design
@@ -563,38 +563,8 @@ def test_good_space_and_json_schema(tmp_path):
 # ----------------------------------------------------------------------------- springs runs
 def _springs_space(tmp_path: Path, name="springs.toml", run="", size=4, base=SMALL) -> Path:
     """A tiny space on the springs-only example (about 0.1 s per run)."""
-    text = f'''base = "{base.as_posix()}"
-[[parameter]]
-path = "cap.diameter"
-low = 7.6
-high = 9.0
-[[parameter]]
-path = "soil.layers.0.su"
-distribution = "loguniform"
-low = 15.0
-high = 25.0
-[[parameter]]
-path = "piles.length"
-distribution = "choice"
-values = [12.0, 15.0]
-[[derived]]
-path = "piles.rings.0.radius"
-formula = "cap.diameter / 2 - 0.8"
-[[derived]]
-path = "piles.rings.0.count"
-formula = "round(2 * pi * piles.rings.0.radius / (5 * piles.width))"
-[[derived]]                     # not in the base file: a default of the design schema
-path = "requirements.dynamic_stiffness_min"
-formula = "1.0e7"
-[sampling]
-method = "sobol"
-size = {size}
-seed = 5
-[run]
-{run}
-'''
     p = tmp_path / name
-    p.write_text(text)
+    p.write_text(springs_space_text(base, size=size, run=run))
     return p
 
 

@@ -14,6 +14,7 @@ import subprocess
 from pathlib import Path
 
 import pytest
+from conftest import springs_space_text
 
 from femcore.workflows import cli
 from femcore.workflows.campaign import run_campaign
@@ -31,23 +32,7 @@ BROWSER = next((shutil.which(b) for b in ("chromium", "chromium-browser", "googl
 def page(tmp_path_factory):
     tmp = tmp_path_factory.mktemp("explore")
     space = tmp / "space.toml"
-    space.write_text(f'''base = "{SMALL.as_posix()}"
-[[parameter]]
-path = "cap.diameter"
-low = 7.6
-high = 9.0
-[[parameter]]
-path = "piles.length"
-distribution = "choice"
-values = [10.0, 12.0, 15.0]
-[[derived]]
-path = "piles.rings.0.radius"
-formula = "cap.diameter / 2 - 0.8"
-[sampling]
-method = "sobol"
-size = 8
-seed = 3
-''')
+    space.write_text(springs_space_text(SMALL, size=8, lengths=(10.0, 12.0, 15.0), seed=3))
     store = tmp / "runs.sqlite"
     run_campaign(space, store, workers=1, quiet=True)
     out = tmp / "page.html"

@@ -10,6 +10,7 @@ import csv
 from pathlib import Path
 
 import pytest
+from conftest import springs_space_text
 
 from femcore.workflows import cli
 from femcore.workflows.campaign import Store, run_campaign
@@ -23,34 +24,7 @@ SMALL = ROOT / "examples" / "small_group_springs.toml"
 def campaign(tmp_path_factory):
     tmp = tmp_path_factory.mktemp("select")
     space = tmp / "space.toml"
-    space.write_text(f'''base = "{SMALL.as_posix()}"
-[[parameter]]
-path = "cap.diameter"
-low = 7.6
-high = 9.0
-[[parameter]]
-path = "soil.layers.0.su"
-distribution = "loguniform"
-low = 15.0
-high = 25.0
-[[parameter]]
-path = "piles.length"
-distribution = "choice"
-values = [10.0, 12.0, 15.0]
-[[derived]]
-path = "piles.rings.0.radius"
-formula = "cap.diameter / 2 - 0.8"
-[[derived]]
-path = "piles.rings.0.count"
-formula = "round(2 * pi * piles.rings.0.radius / (5 * piles.width))"
-[[derived]]
-path = "requirements.dynamic_stiffness_min"
-formula = "1.0e7"
-[sampling]
-method = "sobol"
-size = 16
-seed = 5
-''')
+    space.write_text(springs_space_text(SMALL, size=16, lengths=(10.0, 12.0, 15.0), seed=5))
     store = tmp / "runs.sqlite"
     run_campaign(space, store, workers=1, quiet=True)
     return tmp, store
