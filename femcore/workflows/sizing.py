@@ -410,10 +410,15 @@ def _sizing_pdf(result: dict, path: Path) -> Path:
                      sm.num(r["quantity"]), "-" if r.get("least_margin") is None
                      else f"{100 * r['least_margin']:+.1f} %",
                      "feasible" if r["feasible"] else r.get("reason", "")))
-    w = 0.5 / max(len(varies), 1)
-    doc.table([Column("#", 0.05, "r"), Column("phase", 0.08),
-               *[Column(p, w, "r") for p in varies], Column(st["minimize"], 0.12, "r"),
-               Column("least margin", 0.1, "r"), Column("verdict", 0.3)], rows, size=7.2)
+    w = 0.36 / max(len(varies), 1)
+    doc.text("Every run in order: " + ", ".join(f"v{i} = {p}" for i, p in
+                                                enumerate(varies, start=1))
+             + f"; quantity = {st['minimize']}{unit}; least margin over the checks.",
+             size=8.0)
+    doc.table([Column("#", 0.05, "r"), Column("phase", 0.1),
+               *[Column(f"v{i}", w, "r") for i in range(1, len(varies) + 1)],
+               Column("quantity", 0.12, "r"), Column("least margin", 0.13, "r"),
+               Column("verdict", 0.34)], rows, size=7.2)
     if len(varies) >= 1:
         rect = doc.figure_area(0.32)
         ax = doc.fig.add_axes((rect[0] + 0.08 * rect[2], rect[1] + 0.14 * rect[3],
