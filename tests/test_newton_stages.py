@@ -161,6 +161,46 @@ def test_broyden_updates_reach_the_root_with_fewer_factorizations():
     assert count["broyden"] < count["plain"]
 
 
+def test_broyden_updates_carry_over_to_the_next_load_step():
+    """The same stiffening system loaded in ten steps b_k = k b / 10, each solved from the
+    last root with a shared ``reuse`` dict: every step's root equals scipy.optimize.root's
+    (to 1e-8 relative), and carrying the Broyden updates from one step to the next needs no
+    more factorizations than starting every step from the bare factorization (the carried
+    updates describe the tangent near the last root)."""
+    import scipy.sparse as sp
+    from scipy.optimize import root
+
+    import femcore.newton as nm
+
+    n = 40
+    A = sp.diags([-1.0, 2.0, -1.0], [-1, 0, 1], shape=(n, n), format="csc") * 50.0
+    b_end = np.linspace(1.0, 30.0, n)
+
+    def run(carry: bool) -> int:
+        count = [0]
+
+        def make(b):
+            def residual(x):
+                def tangent():
+                    count[0] += 1
+                    return (A + sp.diags(0.15 * x**2)).tocsc()
+                return A @ x + 0.05 * x**3 - b, tangent, float(np.linalg.norm(b)), None
+            return residual
+
+        reuse: dict = {}
+        x = np.zeros(n)
+        for k in range(1, 11):
+            b = k * b_end / 10
+            if not carry and isinstance(reuse.get("lu"), nm._Broyden):
+                reuse["lu"] = reuse["lu"].lu  # the bare factorization only
+            x = newton(make(b), x, rtol=1e-10, broyden=8, reuse=reuse).x
+            ref = root(lambda y, b=b: A @ y + 0.05 * y**3 - b, x, tol=1e-12).x
+            assert np.allclose(x, ref, rtol=1e-8, atol=1e-8 * np.abs(ref).max())
+        return count[0]
+
+    assert run(carry=True) <= run(carry=False)
+
+
 def test_bordered_matrix_equals_scipy_block_assembly():
     """The bordered tangent of proportional loading, built by inserting one row entry and one
     column into K's CSC arrays, equals SciPy's general block assembly ``bmat`` (independent
