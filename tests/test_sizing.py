@@ -114,3 +114,28 @@ def test_bad_size_input_exit_2(design, tmp_path, capsys, args, words):
     err = capsys.readouterr().err
     assert all(w in err for w in words), err
     assert "Traceback" not in err
+
+
+def test_ctrl_c_keeps_the_finished_runs(design, tmp_path, capsys, monkeypatch):
+    """Ctrl-C during the search: the finished runs are written to sizing.json, no re-check
+    is made, the exit code is 130 (as a campaign's) and no traceback is printed."""
+    import femcore.foundation.run as run_module
+
+    real, calls = run_module.run_design, [0]
+
+    def interrupted_after_three(*args, **kwargs):
+        calls[0] += 1
+        if calls[0] > 3:
+            raise KeyboardInterrupt
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(run_module, "run_design", interrupted_after_three)
+    path, _ = design
+    out = tmp_path / "stopped"
+    code = cli.main(["size", str(path), "--vary", "piles.length=8:20", "--vary",
+                     "piles.rings.0.count=6:14", "--budget", "20", "--out", str(out)])
+    assert code == 130
+    err = capsys.readouterr().err
+    assert "3 finished runs are kept" in err and "Traceback" not in err
+    data = json.loads((out / "sizing.json").read_text())
+    assert data["interrupted"] and len(data["runs"]) == 3 and data["recheck"] == []

@@ -433,6 +433,10 @@ def _cmd_size(args: argparse.Namespace) -> int:
     except OSError as exc:
         raise InputProblem(f"--out {out}: cannot write ({exc.strerror})") from None
     best, base = result["best"], result["baseline"]
+    if result.get("interrupted"):
+        print(f"stopped by Ctrl-C: the {result['search_runs']} finished runs are kept in "
+              f"{out}/sizing.json (no re-check was made)", file=sys.stderr)
+        return EXIT_INTERRUPTED
     unit = result["settings"]["unit"]
     unit = "" if unit == "-" else f" {unit}"
     print()

@@ -139,7 +139,17 @@ class _Search:
             rec.update(status="invalid_input", feasible=False, reason=des, quantity=None,
                        seconds=0.0)
         else:
-            res = run_design(des)
+            try:
+                res = run_design(des)
+            except (KeyboardInterrupt, SystemExit):
+                raise
+            except Exception as exc:  # a failed run is a result of the search, not its end
+                rec.update(status="error", feasible=False, quantity=None, seconds=0.0,
+                           reason=f"{type(exc).__name__}: {exc}")
+                self.runs.append(rec)
+                if self.progress:
+                    self.progress(rec)
+                return rec
             checks = {k: c.as_dict() for k, c in res.requirements.items()}
             feasible, why = res.status == "ok" and bool(checks), ""
             if res.status != "ok":
@@ -234,6 +244,55 @@ def size_design(design_path: str | Path, vary: list[str], minimize: str, budget:
     points = sorted(itertools.product(*grids), key=lambda p: tuple(-x for x in p)) \
         if others else [()]
     tol = (1.0 if vb.integer else TOLERANCE * (vb.high - vb.low))
+    interrupted = False
+    try:
+        _boundary_search(s, varies, bi, points, tol)
+    except KeyboardInterrupt:  # keep every finished run; no re-check
+        interrupted = True
+    search_s = time.perf_counter() - t0
+    result: dict = {"settings": {"design": str(design_path),
+                                 "vary": [v.__dict__ for v in varies],
+                                 "minimize": minimize, "unit": QUANTITY_UNITS[minimize],
+                                 "budget": budget, "min_margin": min_margin,
+                                 "search_model": settings, "boundary_parameter": vb.path,
+                                 "tolerance": tol},
+                    "baseline": {"values": {v.path: get_path(data, v.path) for v in varies},
+                                 "quantity": quantities(base)[minimize]},
+                    "search_seconds": search_s, "interrupted": interrupted}
+    feasible = sorted((r for r in s.runs if r["feasible"]), key=lambda r: r["quantity"])
+    result["recheck"] = []
+    best = None
+    if recheck and not interrupted:
+        seen = []
+        for cand in feasible:
+            if len(result["recheck"]) >= RECHECKS:
+                break
+            vals = tuple(cand["values"][v.path] for v in varies)
+            if vals in seen:
+                continue
+            seen.append(vals)
+            try:
+                rec = s.evaluate(vals, None, 0.0, "recheck")
+            except KeyboardInterrupt:
+                result["interrupted"] = True
+                break
+            result["recheck"].append(rec)
+            if rec["feasible"]:
+                best = rec
+                break
+    elif feasible and not recheck:
+        best = feasible[0]
+    result["best"] = best
+    result["runs"] = [r for r in s.runs if r["phase"] == "search"]
+    result["search_runs"] = len(result["runs"])
+    return result
+
+
+def _boundary_search(s: _Search, varies: list[Vary], bi: int, points: list[tuple],
+                     tol: float) -> None:
+    """The grid of the non-boundary values, bisection of the boundary value at each point
+    (module docstring); the runs go to ``s``."""
+    vb = varies[bi]
     found: dict[tuple, tuple[float | None, float | None]] = {}  # o -> (infeasible b, feasible b)
 
     def full(o: tuple, b: float) -> tuple:
@@ -244,7 +303,7 @@ def size_design(design_path: str | Path, vary: list[str], minimize: str, budget:
     def snap(b: float) -> float:
         return float(round(b)) if vb.integer else b
 
-    baseline = tuple(float(get_path(data, v.path)) for v in varies)
+    baseline = tuple(float(get_path(s.data, v.path)) for v in varies)
     if all(v.low <= x <= v.high for v, x in zip(varies, baseline, strict=True)):
         s.run_point(baseline)  # the design as given: the first incumbent
     for o in points:
@@ -302,39 +361,6 @@ def size_design(design_path: str | Path, vary: list[str], minimize: str, budget:
         if not virtual and s.left > 0 and not s.evaluated(point) and (
                 s.best is None or s.quantity(point) < s.best["quantity"]):
             s.run_point(point)  # feasible by inheritance: run it for its checks
-    search_s = time.perf_counter() - t0
-    result: dict = {"settings": {"design": str(design_path),
-                                 "vary": [v.__dict__ for v in varies],
-                                 "minimize": minimize, "unit": QUANTITY_UNITS[minimize],
-                                 "budget": budget, "min_margin": min_margin,
-                                 "search_model": settings, "boundary_parameter": vb.path,
-                                 "tolerance": tol},
-                    "baseline": {"values": {v.path: get_path(data, v.path) for v in varies},
-                                 "quantity": quantities(base)[minimize]},
-                    "search_seconds": search_s}
-    feasible = sorted((r for r in s.runs if r["feasible"]), key=lambda r: r["quantity"])
-    result["recheck"] = []
-    best = None
-    if recheck:
-        seen = []
-        for cand in feasible:
-            if len(result["recheck"]) >= RECHECKS:
-                break
-            vals = tuple(cand["values"][v.path] for v in varies)
-            if vals in seen:
-                continue
-            seen.append(vals)
-            rec = s.evaluate(vals, None, 0.0, "recheck")
-            result["recheck"].append(rec)
-            if rec["feasible"]:
-                best = rec
-                break
-    elif feasible:
-        best = feasible[0]
-    result["best"] = best
-    result["runs"] = [r for r in s.runs if r["phase"] == "search"]
-    result["search_runs"] = len(result["runs"])
-    return result
 
 
 def write_sizing(result: dict, out: Path) -> list[Path]:
@@ -380,7 +406,10 @@ def _sizing_pdf(result: dict, path: Path) -> Path:
                 + f": {sm.num(result['baseline']['quantity'])}{unit}")], key_width=0.2)
     best = result["best"]
     doc.heading("Result")
-    if best is None:
+    if result.get("interrupted"):
+        doc.text(f"The search was stopped (Ctrl-C) after {result['search_runs']} runs; no "
+                 "re-check was made. The trail below holds every finished run.", colour=BAD)
+    elif best is None:
         doc.text("No design in the box passed every check (or the re-checks failed): widen "
                  "the ranges, raise the budget or the search margin.", colour=BAD)
     else:
