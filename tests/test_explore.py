@@ -74,6 +74,27 @@ def test_page_renders_in_headless_chromium(page, tmp_path):
     assert res.stdout.count('class="main-svg"') >= 3
 
 
+@pytest.mark.skipif(BROWSER is None, reason="no Chromium installed (Debian package "
+                                            "'chromium'): the page is not opened in a browser")
+def test_moved_threshold_updates_the_feasible_set(page, tmp_path):
+    """A stricter static stiffness minimum given to the page (its address: #static=...)
+    leaves exactly the runs whose stored static stiffness reaches it (the hand filter of the
+    stored checks)."""
+    store, out = page
+    _, feasible, _ = select(store)
+    values = sorted(r["req.static_stiffness.value"] for r in feasible)
+    limit = values[len(values) // 2] / 1e6  # GNm/rad: about half the runs stay
+    expected = sum(v / 1e6 >= limit for v in values)
+    res = subprocess.run(
+        [BROWSER, "--headless=new", "--no-sandbox", "--disable-gpu",
+         f"--user-data-dir={tmp_path / 'profile'}", "--virtual-time-budget=10000",
+         "--dump-dom", out.resolve().as_uri() + f"#static={limit!r}"],
+        capture_output=True, text=True, timeout=120)
+    body = re.search(r"<body([^>]*)>", res.stdout).group(1)
+    assert f'data-feasible="{expected}"' in body, (body, expected, len(feasible))
+    assert 0 < expected < len(feasible)
+
+
 def test_explore_bad_input_exit_2(page, tmp_path, capsys, monkeypatch):
     store, _ = page
     assert cli.main(["campaign", "explore", str(store), "--out", str(tmp_path / "x.pdf")]) == 2
