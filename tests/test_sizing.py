@@ -79,11 +79,16 @@ def test_search_beats_the_brute_force_grid(design):
     assert result["baseline"]["quantity"] == pytest.approx(15.0 * 8 * AREA)
 
 
+def _size_cli(path, out) -> int:
+    """`tiltfe size` on the pinned group: pile length 8-20 m and count 6-14, 20 runs."""
+    return cli.main(["size", str(path), "--vary", "piles.length=8:20", "--vary",
+                     "piles.rings.0.count=6:14", "--budget", "20", "--out", str(out)])
+
+
 def test_cli_writes_json_and_report(design, tmp_path, capsys):
     path, _ = design
     out = tmp_path / "sizing"
-    code = cli.main(["size", str(path), "--vary", "piles.length=8:20", "--vary",
-                     "piles.rings.0.count=6:14", "--budget", "20", "--out", str(out)])
+    code = _size_cli(path, out)
     assert code == 0
     printed = capsys.readouterr().out
     assert "less than the baseline" in printed and "Caution" in printed
@@ -132,8 +137,7 @@ def test_ctrl_c_keeps_the_finished_runs(design, tmp_path, capsys, monkeypatch):
     monkeypatch.setattr(run_module, "run_design", interrupted_after_three)
     path, _ = design
     out = tmp_path / "stopped"
-    code = cli.main(["size", str(path), "--vary", "piles.length=8:20", "--vary",
-                     "piles.rings.0.count=6:14", "--budget", "20", "--out", str(out)])
+    code = _size_cli(path, out)
     assert code == 130
     err = capsys.readouterr().err
     assert "3 finished runs are kept" in err and "Traceback" not in err
