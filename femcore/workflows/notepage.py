@@ -12,7 +12,7 @@ from __future__ import annotations
 import textwrap
 from dataclasses import dataclass
 
-__all__ = ["Column", "NoteDocument", "INK", "MUTED", "ACCENT", "WARN", "GOOD", "BAD"]
+__all__ = ["Column", "NoteDocument", "INK", "MUTED", "ACCENT", "WARN", "GOOD", "BAD", "BOTTOM"]
 
 INK, MUTED, ACCENT, WARN, GOOD, BAD = ("#1d2733", "#6b7785", "#2b6cb0", "#b7591c", "#2f7d4f",
                                        "#b42318")

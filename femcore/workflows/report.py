@@ -24,7 +24,7 @@ from femcore.foundation.run import Result
 from femcore.model import SolidBlock
 
 from . import summary as sm
-from .notepage import ACCENT, BAD, GOOD, INK, MUTED, WARN, Column, NoteDocument
+from .notepage import ACCENT, BAD, BOTTOM, GOOD, INK, MUTED, WARN, Column, NoteDocument
 
 __all__ = ["write_report", "FIGURES"]
 
@@ -617,8 +617,9 @@ def _write_report(result: Result, out: Path) -> list[Path]:
         png.savefig(p)
         plt.close(png)
         files.append(p)
-    doc.space(6)
-    doc.boxed("Caution. " + CAUTION)
+    if doc.y - 0.08 > BOTTOM:  # the caution again at the end where it fits (it is on page 1
+        doc.space(6)           # and every footer carries its short form)
+        doc.boxed("Caution. " + CAUTION)
     pages = doc.finish(f"tiltfe {(result.model.get('versions') or {}).get('tiltfe', '')}: "
                        "indicative model results, to be checked by a qualified engineer")
     pdf_path = out / "report.pdf"
