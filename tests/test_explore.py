@@ -49,7 +49,7 @@ def test_page_is_self_contained_and_holds_every_run(page):
     assert len(data["runs"]) == 8
     assert {"cap.diameter", "piles.length", "pile_concrete_volume"} <= set(data["fields"])
     assert data["thresholds"]["static"] == pytest.approx(2.0)  # GNm/rad: 2.0e6 kNm/rad
-    assert "Caution" in text or "IEC 61400-6" in text
+    assert "IEC 61400-6" in text and "EN 1997-1" in text  # the caution in the footer
 
 
 @pytest.mark.skipif(BROWSER is None, reason="no Chromium installed (Debian package "

@@ -99,10 +99,9 @@ class BuiltModel:
 
 
 def _soil_material(layer: SoilLayer, top: float):
-    nu = layer.nu if layer.nu is not None else (0.49 if layer.undrained else 0.3)
+    nu = layer.poisson
     if layer.model == "tresca":
-        E = layer.E if layer.E is not None else 200.0 * layer.su
-        return Tresca(E=E, nu=nu, su=layer.su, su_gradient=layer.su_gradient,
+        return Tresca(E=layer.E_top, nu=nu, su=layer.su, su_gradient=layer.su_gradient,
                       E_gradient=layer.E_gradient, depth_ref=top)
     if layer.model == "mohr_coulomb":
         return MohrCoulomb(E=layer.E, nu=nu, c=layer.c, phi=layer.phi, psi=layer.psi,
@@ -110,16 +109,10 @@ def _soil_material(layer: SoilLayer, top: float):
     return LinearElastic(E=layer.E, nu=nu, E_gradient=layer.E_gradient, depth_ref=top)
 
 
-def _k0(layer: SoilLayer) -> float:
-    if layer.K0 is not None:
-        return layer.K0
-    return 0.7 if layer.undrained else 1.0 - np.sin(np.radians(layer.phi))
-
-
 def soil_profile(design: Design) -> Profile:
     layers, top = [], 0.0
     for ly in design.soil.layers:
-        layers.append(Layer(top, top + ly.thickness, ly.gamma, ly.gamma_sat, _k0(ly),
+        layers.append(Layer(top, top + ly.thickness, ly.gamma, ly.gamma_sat, ly.k0,
                             drained=not ly.undrained))
         top += ly.thickness
     return Profile(tuple(layers), water_table=design.soil.water_table, gamma_w=GAMMA_W)

@@ -200,6 +200,25 @@ class SoilLayer(_Model):
     def undrained(self) -> bool:
         return self.model == "tresca"
 
+    @property
+    def E_top(self) -> float:
+        """Young's modulus at the layer top in use, kPa: ``E``, or 200 s_u for a Tresca layer
+        without it."""
+        return self.E if self.E is not None else 200.0 * self.su
+
+    @property
+    def poisson(self) -> float:
+        """Poisson's ratio in use: ``nu``, or 0.49 undrained and 0.3 otherwise."""
+        return self.nu if self.nu is not None else (0.49 if self.undrained else 0.3)
+
+    @property
+    def k0(self) -> float:
+        """Earth pressure coefficient at rest in use: ``K0``, or 0.7 undrained and
+        1 - sin(phi) drained (Jaky 1944)."""
+        if self.K0 is not None:
+            return self.K0
+        return 0.7 if self.undrained else 1.0 - math.sin(math.radians(self.phi))
+
     @model_validator(mode="after")
     def _check(self) -> SoilLayer:
         if self.model == "tresca" and self.su is None:

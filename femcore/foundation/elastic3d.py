@@ -94,7 +94,7 @@ def small_strain_design(design: Design) -> Design:
         raise ValueError(f"no G0 given for layer(s) {missing}")
     new_layers = []
     for ly in layers:
-        nu = ly.nu if ly.nu is not None else (0.49 if ly.undrained else 0.3)
+        nu = ly.poisson
         new_layers.append(ly.model_copy(update={
             "model": "elastic", "E": 2 * ly.G0 * (1 + nu), "E_gradient": 0.0, "nu": nu}))
     cap = design.cap.model_copy(update={"contact": "bonded"}) \

@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import math
 
-from .build import _k0
 from .design import Design, DesignStrength
 
 __all__ = ["factored_design"]
@@ -26,10 +25,10 @@ def factored_design(design: Design) -> Design:
     f = design.design_strength or DesignStrength()
     layers = []
     for ly in design.soil.layers:
-        upd: dict = {"K0": _k0(ly)}
+        upd: dict = {"K0": ly.k0}
         if ly.model == "tresca":
             upd.update(su=ly.su / f.su, su_gradient=ly.su_gradient / f.su,
-                       E=ly.E if ly.E is not None else 200.0 * ly.su)
+                       E=ly.E_top)
         elif ly.model == "mohr_coulomb":
             phi = math.degrees(math.atan(math.tan(math.radians(ly.phi)) / f.tan_phi))
             upd.update(c=ly.c / f.c, phi=phi, psi=min(ly.psi, phi))

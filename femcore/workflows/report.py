@@ -144,12 +144,9 @@ def _soil_rows(design) -> list[tuple]:
                         f"\u03c8 {_n(ly.psi, sig=3)}\u00b0")
         else:
             strength = "elastic"
-        E = ly.E if ly.E is not None else (200 * ly.su if ly.su else None)
-        e_text = _opt(E, "", 1e3) + (f" + {_n(ly.E_gradient, 1e3, 3)}/m" if ly.E_gradient
-                                      else "")
-        nu = ly.nu if ly.nu is not None else (0.49 if ly.model == "tresca" else 0.3)
-        k0 = ly.K0 if ly.K0 is not None else (
-            0.7 if ly.model == "tresca" else 1 - np.sin(np.radians(ly.phi)))
+        e_text = _opt(ly.E_top, "", 1e3) + (f" + {_n(ly.E_gradient, 1e3, 3)}/m"
+                                             if ly.E_gradient else "")
+        nu, k0 = ly.poisson, ly.k0
         rows.append((ly.name, f"{top:g}-{bottom:g}",
                      {"tresca": "Tresca", "mohr_coulomb": "Mohr-Coulomb"}.get(ly.model,
                                                                               "elastic"),

@@ -51,6 +51,7 @@ import numpy as np
 from femcore.foundation.design import Design, DesignError, design_from_dict
 from femcore.foundation.quantities import QUANTITY_UNITS, quantities
 from femcore.workflows.campaign.paths import SpaceError, get_path, path_problem, set_path
+from femcore.workflows.campaign.select import feasibility
 
 __all__ = ["Vary", "parse_vary", "size_design", "SIZE_QUANTITIES"]
 
@@ -146,31 +147,15 @@ class _Search:
             except Exception as exc:  # a failed run is a result of the search, not its end
                 rec.update(status="error", feasible=False, quantity=None, seconds=0.0,
                            reason=f"{type(exc).__name__}: {exc}")
-                self.runs.append(rec)
-                if self.progress:
-                    self.progress(rec)
-                return rec
-            checks = {k: c.as_dict() for k, c in res.requirements.items()}
-            feasible, why = res.status == "ok" and bool(checks), ""
-            if res.status != "ok":
-                why = f"status {res.status}"
-            elif not checks:
-                why = "the design has no requirements"
-            for name, c in checks.items():
-                if not feasible:
-                    break
-                if c["passed"] is not True:
-                    verdict = "fails" if c["passed"] is False else "not decided"
-                    feasible, why = False, f"{name} {verdict}"
-                elif c["margin"] is not None and c["margin"] < margin:
-                    feasible, why = False, f"{name} margin {100 * c['margin']:+.1f} % below " \
-                                           f"{100 * margin:g} %"
-            margins = [c["margin"] for c in checks.values() if c["margin"] is not None]
-            rec.update(status=res.status, feasible=feasible, reason=why,
-                       quantity=res.quantities[self.minimize], quantities=res.quantities,
-                       least_margin=min(margins) if margins else None,
-                       keypoints={k: kp.value for k, kp in res.keypoints.items()},
-                       requirements=checks, seconds=time.perf_counter() - t0)
+            else:
+                checks = {k: c.as_dict() for k, c in res.requirements.items()}
+                feasible, why = feasibility(res.status, checks, margin)
+                margins = [c["margin"] for c in checks.values() if c["margin"] is not None]
+                rec.update(status=res.status, feasible=feasible, reason=why,
+                           quantity=res.quantities[self.minimize], quantities=res.quantities,
+                           least_margin=min(margins) if margins else None,
+                           keypoints={k: kp.value for k, kp in res.keypoints.items()},
+                           requirements=checks, seconds=time.perf_counter() - t0)
         self.runs.append(rec)
         if self.progress:
             self.progress(rec)

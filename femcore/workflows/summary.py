@@ -13,7 +13,8 @@ from __future__ import annotations
 import math
 
 __all__ = ["num", "requirement_rows", "keypoint_rows", "quantity_rows", "REQUIREMENT_HEADER",
-           "KEYPOINT_HEADER", "QUANTITY_HEADER", "display_value", "text_table"]
+           "KEYPOINT_HEADER", "QUANTITY_HEADER", "QUANTITY_LABELS", "display_value",
+           "text_table"]
 
 REQUIREMENT_HEADER = ("Requirement", "Required", "Computed", "Margin", "Result")
 KEYPOINT_HEADER = ("Key point", "Value", "Method")
@@ -142,7 +143,7 @@ def keypoint_rows(result, plain: bool = False) -> list[tuple]:
     return rows
 
 
-_QUANTITY_LABELS = {"cap_concrete_volume": "Cap concrete",
+QUANTITY_LABELS = {"cap_concrete_volume": "Cap concrete",
                     "pedestal_concrete_volume": "Pedestal concrete",
                     "pile_count": "Piles", "pile_total_length": "Pile length, total (along "
                     "the axes)", "pile_concrete_volume": "Pile concrete",
@@ -159,12 +160,12 @@ def quantity_rows(quantities: dict | None, plain: bool = False) -> list[tuple]:
         if name == "cost_index" and v is None:
             continue
         if name == "pile_count":
-            rows.append((_QUANTITY_LABELS[name], "-" if v is None else f"{int(v)}", ""))
+            rows.append((QUANTITY_LABELS[name], "-" if v is None else f"{int(v)}", ""))
             continue
         n, u = display_value(v, unit, plain)
         if name in ("pile_total_length",) or unit == "m3":
             n = "-" if v is None else f"{v:.1f}"
-        rows.append((_QUANTITY_LABELS[name], n, u))
+        rows.append((QUANTITY_LABELS[name], n, u))
     return rows
 
 

@@ -41,10 +41,12 @@ _OUTPUTS = {"kp.initial_stiffness": ("initial stiffness (GNm/rad)", 1e6),
             "req.capacity.value": ("capacity for the check (MNm)", 1e3),
             "kp.yield_equal_energy": ("yield moment, equal energy (MNm)", 1e3),
             "kp.moment_at@0.003": ("moment at 3 mrad (MNm)", 1e3)}
-_QUANTITY_LABELS = {"cap_concrete_volume": "cap concrete (m3)",
-                    "pedestal_concrete_volume": "pedestal concrete (m3)",
-                    "pile_count": "pile count", "pile_total_length": "pile length, total (m)",
-                    "pile_concrete_volume": "pile concrete (m3)", "cost_index": "cost index"}
+def _quantity_label(name: str) -> str:
+    """The quantity's name as in the report, with its unit (``Pile concrete (m3)``)."""
+    from femcore.workflows.summary import QUANTITY_LABELS
+
+    unit = QUANTITY_UNITS[name]
+    return QUANTITY_LABELS[name] + ("" if unit == "-" else f" ({unit})")
 
 
 def _finite(v):
@@ -62,7 +64,7 @@ def explorer_data(store_path: str | Path) -> dict:
         base = st.meta("base") or {}
     params = [p.get("path") for p in space.get("parameter", [])]
     fields: dict[str, str] = {p: p for p in params}
-    fields.update({k: v for k, v in _QUANTITY_LABELS.items()
+    fields.update({k: _quantity_label(k) for k in QUANTITY_UNITS
                    if any(r.get(k) is not None for r in rows)})
     fields.update({k: v[0] for k, v in _OUTPUTS.items() if k in cols})
     runs = []

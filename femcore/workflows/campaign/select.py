@@ -37,7 +37,7 @@ from .export import REQUIREMENT_ORDER, export_rows
 from .paths import SpaceError
 from .store import RunRecord, Store
 
-__all__ = ["select", "SELECT_BY", "write_selection"]
+__all__ = ["select", "SELECT_BY", "write_selection", "feasibility"]
 
 #: what the feasible runs can be ranked by (material quantities, smallest first)
 SELECT_BY = tuple(k for k in QUANTITY_UNITS if k != "pile_count") + ("pile_count",)
@@ -50,19 +50,10 @@ def _load_requirements(path: str | Path):
 
     from femcore.foundation.design import Requirements
 
-    try:
-        import tomllib
-    except ModuleNotFoundError:  # Python 3.10
-        import tomli as tomllib
+    from .space import _toml_load
+
     p = Path(path)
-    if not p.is_file():
-        raise SpaceError(f"--requirements {p}: no such file")
-    try:
-        data = tomllib.loads(p.read_text(encoding="utf-8-sig"))
-    except (UnicodeDecodeError, OSError) as exc:
-        raise SpaceError(f"--requirements {p}: cannot be read as UTF-8 text ({exc})") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise SpaceError(f"--requirements {p}: not valid TOML ({exc})") from None
+    data = _toml_load(p, f"--requirements {p}")
     table = data.get("requirements")
     if not isinstance(table, dict) or not table:
         raise SpaceError(f"--requirements {p}: no [requirements] table with at least one "
@@ -122,7 +113,10 @@ def _recheck(rec: RunRecord, inputs: dict, req) -> dict[str, dict]:
     return out
 
 
-def _verdict(status: str, checks: dict[str, dict], min_margin: float) -> tuple[bool, str]:
+def feasibility(status: str, checks: dict[str, dict], min_margin: float) -> tuple[bool, str]:
+    """(feasible, why not) of a run of ``status`` with requirement ``checks`` ({name: {"passed",
+    "margin", ...}}): status ok, at least one check, every check passed with a margin of at
+    least ``min_margin`` (a check without a margin must pass)."""
     if status == "censored":
         return False, "censored (no plateau: the capacity only a lower bound)"
     if status != "ok":
@@ -135,7 +129,8 @@ def _verdict(status: str, checks: dict[str, dict], min_margin: float) -> tuple[b
         if not chk["passed"]:
             return False, f"{name} fails"
         if chk.get("margin") is not None and chk["margin"] < min_margin:
-            return False, f"{name} margin below {min_margin:.1%}"
+            return False, (f"{name} margin {100 * chk['margin']:+.1f} % below "
+                           f"{100 * min_margin:g} %")
     return True, ""
 
 
@@ -175,9 +170,10 @@ def select(store_path: str | Path, by: str = "pile_concrete_volume", min_margin:
                       for k in (rec.requirements or {})}
         else:
             checks = _recheck(rec, raw.get("inputs"), req)
-        ok, why = _verdict(rec.status, checks, min_margin)
+        ok, why = feasibility(rec.status, checks, min_margin)
         if not ok:
-            key = why.split(" margin")[0] + " margin" if "margin below" in why else why
+            key = why.split(" margin ")[0] + " margin below the minimum" if " margin " in why \
+                else why
             reasons[key] = reasons.get(key, 0) + 1
             continue
         if row.get(by) is None:
